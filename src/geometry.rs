@@ -1,0 +1,107 @@
+//! Geometry on Cartesian coordinates in ångström. Angles are radians here;
+//! conversion to degrees happens at the edges (output, command line).
+
+/// A position or displacement in Å.
+pub type Vec3 = nalgebra::Vector3<f64>;
+
+/// Below this value of sin² of a bond angle, a dihedral is treated as
+/// undefined: three of its atoms are (nearly) collinear (|sin θ| < 1e-4).
+const COLLINEAR_EPS: f64 = 1e-8;
+
+/// Signed dihedral angle τ(a, b, c, d) in radians, in (−π, π], with the IUPAC
+/// sign convention (IUPAC Gold Book, "torsion angle"; Klyne & Prelog,
+/// Experientia 1960, 16, 521): looking along b→c, τ is positive when the bond
+/// b–a must turn clockwise to eclipse c–d.
+///
+/// Computed with the atan2 form (Blondel & Karplus, J. Comput. Chem. 1996, 17,
+/// 1132), which is accurate near 0 and π. Returns `None` when a–b–c or b–c–d
+/// is collinear (or two atoms coincide), where the angle is undefined.
+#[inline]
+pub fn dihedral(a: &Vec3, b: &Vec3, c: &Vec3, d: &Vec3) -> Option<f64> {
+    let b1 = b - a;
+    let b2 = c - b;
+    let b3 = d - c;
+    let n1 = b1.cross(&b2);
+    let n2 = b2.cross(&b3);
+    let b2n2 = b2.norm_squared();
+    if n1.norm_squared() <= COLLINEAR_EPS * b1.norm_squared() * b2n2
+        || n2.norm_squared() <= COLLINEAR_EPS * b3.norm_squared() * b2n2
+        || b2n2 == 0.0
+    {
+        return None;
+    }
+    // atan2(|b2| b1·(b2×b3), (b1×b2)·(b2×b3)); both scaled by |b2| alike.
+    let y = b1.dot(&n2) * b2n2.sqrt();
+    let x = n1.dot(&n2);
+    Some(y.atan2(x))
+}
+
+/// Angle a–b–c at b in radians, in [0, π]; `None` if either bond has zero length.
+#[inline]
+pub fn angle(a: &Vec3, b: &Vec3, c: &Vec3) -> Option<f64> {
+    let u = a - b;
+    let v = c - b;
+    let nu = u.norm();
+    let nv = v.norm();
+    if nu == 0.0 || nv == 0.0 {
+        return None;
+    }
+    let cos = (u.dot(&v) / (nu * nv)).clamp(-1.0, 1.0);
+    Some(cos.acos())
+}
+
+/// Wraps an angle in radians into (−π, π].
+#[inline]
+pub fn wrap_angle(x: f64) -> f64 {
+    let two_pi = std::f64::consts::TAU;
+    let mut y = x % two_pi;
+    if y <= -std::f64::consts::PI {
+        y += two_pi;
+    } else if y > std::f64::consts::PI {
+        y -= two_pi;
+    }
+    y
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use approx::assert_abs_diff_eq;
+
+    fn v(x: f64, y: f64, z: f64) -> Vec3 {
+        Vec3::new(x, y, z)
+    }
+
+    // IUPAC convention (Gold Book "torsion angle"): looking from b along +z, the
+    // front bond points along +x and the rear bond along +y, which is a
+    // clockwise quarter turn for a viewer looking along +z: τ = +90°.
+    // RDKit 2026.09.1 GetDihedralDeg gives +90.0 for these coordinates.
+    #[test]
+    fn sign_convention() {
+        let a = v(1.0, 0.0, 0.0);
+        let b = v(0.0, 0.0, 0.0);
+        let c = v(0.0, 0.0, 1.0);
+        let d_plus = v(0.0, 1.0, 1.0);
+        let d_minus = v(0.0, -1.0, 1.0);
+        let t = dihedral(&a, &b, &c, &d_plus).unwrap().to_degrees();
+        let u = dihedral(&a, &b, &c, &d_minus).unwrap().to_degrees();
+        assert_abs_diff_eq!(t.abs(), 90.0, epsilon = 1e-9);
+        assert_abs_diff_eq!(t, -u, epsilon = 1e-9);
+        assert_abs_diff_eq!(t, 90.0, epsilon = 1e-9);
+    }
+
+    #[test]
+    fn collinear_is_none() {
+        let a = v(0.0, 0.0, -1.0);
+        let b = v(0.0, 0.0, 0.0);
+        let c = v(0.0, 0.0, 1.0);
+        let d = v(1.0, 0.0, 2.0);
+        assert!(dihedral(&a, &b, &c, &d).is_none());
+    }
+
+    #[test]
+    fn wrap() {
+        assert_abs_diff_eq!(wrap_angle(3.0 * std::f64::consts::PI), std::f64::consts::PI, epsilon = 1e-12);
+        assert_abs_diff_eq!(wrap_angle(-0.5), -0.5, epsilon = 1e-12);
+    }
+}

@@ -1,0 +1,243 @@
+//! Conformer readers. Each format has a streaming reader that fills a caller's
+//! [`Frame`] one conformer at a time, reusing its buffers, so a trajectory is
+//! never held in memory whole.
+
+use std::fs::File;
+use std::io::{BufRead, BufReader};
+use std::path::{Path, PathBuf};
+
+use crate::elements::Element;
+use crate::error::{Error, Result};
+use crate::geometry::Vec3;
+
+pub mod pdb;
+pub mod sdf;
+pub mod xyz;
+
+/// A conformer file format.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum Format {
+    /// Multi-frame XYZ: count line, comment line, `Element x y z` lines.
+    Xyz,
+    /// MDL molfile or SD file (V2000 or V3000), one record per conformer.
+    Sdf,
+    /// PDB, one MODEL per conformer (or a single model without MODEL records).
+    Pdb,
+}
+
+impl Format {
+    /// The format implied by a file name's extension (`.xyz`, `.sdf`/`.sd`/`.mol`,
+    /// `.pdb`/`.ent`), case-insensitive.
+    pub fn from_path(path: &Path) -> Option<Format> {
+        let ext = path.extension()?.to_str()?.to_ascii_lowercase();
+        match ext.as_str() {
+            "xyz" => Some(Format::Xyz),
+            "sdf" | "sd" | "mol" | "mdl" => Some(Format::Sdf),
+            "pdb" | "ent" => Some(Format::Pdb),
+            _ => None,
+        }
+    }
+
+    /// Parses a format name as given on the command line (`xyz`, `sdf`, `mol`, `pdb`).
+    pub fn from_name(name: &str) -> Option<Format> {
+        match name.to_ascii_lowercase().as_str() {
+            "xyz" => Some(Format::Xyz),
+            "sdf" | "sd" | "mol" | "mdl" => Some(Format::Sdf),
+            "pdb" => Some(Format::Pdb),
+            _ => None,
+        }
+    }
+
+    /// Lower-case name of the format.
+    pub fn name(self) -> &'static str {
+        match self {
+            Format::Xyz => "xyz",
+            Format::Sdf => "sdf",
+            Format::Pdb => "pdb",
+        }
+    }
+}
+
+/// Bond order as written in a file (or perceived).
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub enum BondOrder {
+    /// Single bond.
+    Single,
+    /// Double bond.
+    Double,
+    /// Triple bond.
+    Triple,
+    /// Aromatic bond (SDF order 4).
+    Aromatic,
+    /// Connectivity without an order (PDB CONECT, distance perception).
+    Unknown,
+}
+
+/// A bond between two atoms, 0-based indices with `a < b`.
+#[derive(Debug, Clone, Copy, PartialEq, Eq, Hash)]
+pub struct Bond {
+    /// First atom (0-based), the smaller index.
+    pub a: usize,
+    /// Second atom (0-based), the larger index.
+    pub b: usize,
+    /// Bond order.
+    pub order: BondOrder,
+}
+
+impl Bond {
+    /// A bond with its atoms put in order.
+    pub fn new(i: usize, j: usize, order: BondOrder) -> Bond {
+        Bond {
+            a: i.min(j),
+            b: i.max(j),
+            order,
+        }
+    }
+}
+
+/// One conformer as read from a file. Readers overwrite every field on each
+/// frame and reuse the vectors' storage.
+#[derive(Debug, Clone, Default)]
+pub struct Frame {
+    /// The file it came from (`-` for standard input).
+    pub path: PathBuf,
+    /// 1-based line where the record starts (for DCD-like binary input, 0).
+    pub line: usize,
+    /// 0-based index of this frame within its file.
+    pub index_in_file: usize,
+    /// Title or comment line of the record.
+    pub title: String,
+    /// Energy as read from the file, in the unit the user states (see
+    /// [`ReadOptions::energy_key`]); `None` if the record has none.
+    pub energy: Option<f64>,
+    /// Element of each atom.
+    pub elements: Vec<Element>,
+    /// Atom names (PDB atom name, SDF alias); empty strings where the file has
+    /// none. Same length as `elements`.
+    pub names: Vec<String>,
+    /// Cartesian coordinates in Å.
+    pub coords: Vec<Vec3>,
+    /// Formal charges as written (SDF); zeros where the file has none.
+    pub charges: Vec<i8>,
+    /// Bonds as written in the file (SDF bond block, PDB CONECT).
+    pub bonds: Vec<Bond>,
+    /// True when the file format carries bonds for this record (SDF always; PDB
+    /// when CONECT records are present). When false, bonds are perceived.
+    pub has_bonds: bool,
+}
+
+impl Frame {
+    /// Number of atoms.
+    pub fn len(&self) -> usize {
+        self.elements.len()
+    }
+
+    /// True if the frame has no atoms.
+    pub fn is_empty(&self) -> bool {
+        self.elements.is_empty()
+    }
+
+    /// Clears the per-record contents, keeping allocated storage.
+    pub fn clear(&mut self) {
+        self.title.clear();
+        self.energy = None;
+        self.elements.clear();
+        for n in &mut self.names {
+            n.clear();
+        }
+        self.coords.clear();
+        self.charges.clear();
+        self.bonds.clear();
+        self.has_bonds = false;
+    }
+}
+
+/// Options that affect reading.
+#[derive(Debug, Clone, Default)]
+pub struct ReadOptions {
+    /// Where the energy is: for XYZ, a key in the comment line (`E=-12.3`,
+    /// `energy: -12.3`); for SDF, the name of an SD data field. With `None`, an
+    /// XYZ comment line that is a bare number is taken as the energy, and the SDF
+    /// fields are searched for a field whose name contains "energy" (case-insensitive).
+    pub energy_key: Option<String>,
+}
+
+/// A streaming source of conformers.
+pub trait FrameReader {
+    /// Reads the next conformer into `frame`, reusing its storage. Returns
+    /// `Ok(false)` at the clean end of the input.
+    fn read_frame(&mut self, frame: &mut Frame) -> Result<bool>;
+}
+
+/// Opens a file (or standard input for `-`) for reading; large buffers.
+pub fn open_input(path: &Path) -> Result<Box<dyn BufRead>> {
+    if path.as_os_str() == "-" {
+        Ok(Box::new(BufReader::with_capacity(1 << 20, std::io::stdin())))
+    } else {
+        let f = File::open(path).map_err(|e| Error::io(path, e))?;
+        Ok(Box::new(BufReader::with_capacity(1 << 20, f)))
+    }
+}
+
+/// Opens a conformer reader for a file, choosing the format from `format` or
+/// else the file extension.
+pub fn open(
+    path: &Path,
+    format: Option<Format>,
+    opts: &ReadOptions,
+) -> Result<Box<dyn FrameReader>> {
+    let fmt = match format.or_else(|| Format::from_path(path)) {
+        Some(f) => f,
+        None => {
+            return Err(Error::file(
+                path,
+                "cannot tell the file format from its name; give the format explicitly (xyz, sdf or pdb)",
+            ))
+        }
+    };
+    let input = open_input(path)?;
+    Ok(reader_for(fmt, input, path.to_path_buf(), opts))
+}
+
+/// A reader of the given format over any buffered input.
+pub fn reader_for(
+    format: Format,
+    input: Box<dyn BufRead>,
+    path: PathBuf,
+    opts: &ReadOptions,
+) -> Box<dyn FrameReader> {
+    match format {
+        Format::Xyz => Box::new(xyz::XyzReader::new(input, path, opts.clone())),
+        Format::Sdf => Box::new(sdf::SdfReader::new(input, path, opts.clone())),
+        Format::Pdb => Box::new(pdb::PdbReader::new(input, path, opts.clone())),
+    }
+}
+
+/// Reads every frame of a file into memory (for small files and tests).
+pub fn read_all(path: &Path, format: Option<Format>, opts: &ReadOptions) -> Result<Vec<Frame>> {
+    let mut r = open(path, format, opts)?;
+    let mut out = Vec::new();
+    loop {
+        let mut f = Frame::default();
+        if !r.read_frame(&mut f)? {
+            break;
+        }
+        out.push(f);
+    }
+    Ok(out)
+}
+
+/// Reads every frame from an in-memory string (for tests and embedded data).
+pub fn read_str(text: &str, format: Format, opts: &ReadOptions) -> Result<Vec<Frame>> {
+    let input: Box<dyn BufRead> = Box::new(std::io::Cursor::new(text.as_bytes().to_vec()));
+    let mut r = reader_for(format, input, PathBuf::from("<string>"), opts);
+    let mut out = Vec::new();
+    loop {
+        let mut f = Frame::default();
+        if !r.read_frame(&mut f)? {
+            break;
+        }
+        out.push(f);
+    }
+    Ok(out)
+}
