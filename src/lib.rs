@@ -13,11 +13,15 @@
 
 #![warn(missing_docs)]
 
+pub mod atomref;
 pub mod elements;
+pub mod ensemble;
 pub mod error;
 pub mod fragments;
 pub mod geometry;
 pub mod io;
+pub mod output;
+pub mod report;
 pub mod topology;
 
 pub use error::{Error, Result};

@@ -1,0 +1,4 @@
+//! Ensembles of conformers: reading them as one stream, weighting them, and
+//! averaging couplings over them.
+
+pub mod source;

@@ -1,0 +1,93 @@
+//! One ensemble from one or more conformer files, streamed frame by frame.
+//! The topology is perceived once, from the first conformer; every later
+//! conformer is checked against it and refused, with its index and the atoms
+//! involved, if its atoms or bonding differ.
+
+use std::path::PathBuf;
+
+use crate::error::{Error, Result};
+use crate::io::{self, Format, Frame, FrameReader, ReadOptions};
+use crate::topology::{perceive, Topology};
+
+/// How to read the files of an ensemble.
+#[derive(Debug, Clone, Default)]
+pub struct SourceOptions {
+    /// Format for every file; `None` chooses by extension.
+    pub format: Option<Format>,
+    /// Reader options (energy key).
+    pub read: ReadOptions,
+}
+
+/// A stream of conformers over several files that form one ensemble.
+pub struct EnsembleSource {
+    files: Vec<PathBuf>,
+    opts: SourceOptions,
+    next_file: usize,
+    reader: Option<Box<dyn FrameReader>>,
+    topology: Option<Topology>,
+    count: usize,
+}
+
+impl EnsembleSource {
+    /// A source over `files`, read in order as one ensemble.
+    pub fn new(files: Vec<PathBuf>, opts: SourceOptions) -> Result<EnsembleSource> {
+        if files.is_empty() {
+            return Err(Error::Usage("no conformer files given".into()));
+        }
+        Ok(EnsembleSource {
+            files,
+            opts,
+            next_file: 0,
+            reader: None,
+            topology: None,
+            count: 0,
+        })
+    }
+
+    /// The files of the ensemble.
+    pub fn files(&self) -> &[PathBuf] {
+        &self.files
+    }
+
+    /// The topology, once the first conformer has been read.
+    pub fn topology(&self) -> Option<&Topology> {
+        self.topology.as_ref()
+    }
+
+    /// Number of conformers read so far.
+    pub fn count(&self) -> usize {
+        self.count
+    }
+
+    /// Reads the next conformer into `frame`. The first one defines the
+    /// topology; later ones are checked against it. Returns `Ok(false)` when
+    /// every file is exhausted; an ensemble with no conformer at all is an error.
+    pub fn read_frame(&mut self, frame: &mut Frame) -> Result<bool> {
+        loop {
+            if self.reader.is_none() {
+                if self.next_file == self.files.len() {
+                    if self.count == 0 {
+                        return Err(Error::Usage("the input files hold no conformers".into()));
+                    }
+                    return Ok(false);
+                }
+                let path = &self.files[self.next_file];
+                self.next_file += 1;
+                self.reader = Some(io::open(path, self.opts.format, &self.opts.read)?);
+            }
+            let Some(reader) = self.reader.as_mut() else {
+                continue;
+            };
+            if !reader.read_frame(frame)? {
+                self.reader = None;
+                continue;
+            }
+            self.count += 1;
+            match &self.topology {
+                None => self.topology = Some(perceive::build(frame)?),
+                Some(top) => perceive::check_frame(top, frame, self.count)?,
+            }
+            return Ok(true);
+        }
+    }
+}
