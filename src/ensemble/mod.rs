@@ -1,4 +1,5 @@
 //! Ensembles of conformers: reading them as one stream, weighting them, and
 //! averaging couplings over them.
 
+pub mod average;
 pub mod source;
