@@ -22,6 +22,8 @@ pub mod geometry;
 pub mod io;
 pub mod output;
 pub mod report;
+pub mod states;
+pub mod timeseries;
 pub mod topology;
 
 pub use error::{Error, Result};
