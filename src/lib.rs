@@ -18,6 +18,7 @@ pub mod error;
 pub mod fragments;
 pub mod geometry;
 pub mod io;
+pub mod pucker;
 pub mod topology;
 
 pub use error::{Error, Result};
