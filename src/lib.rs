@@ -21,6 +21,7 @@ pub mod fragments;
 pub mod geometry;
 pub mod io;
 pub mod output;
+pub mod pucker;
 pub mod report;
 pub mod states;
 pub mod timeseries;
