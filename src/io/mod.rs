@@ -10,6 +10,7 @@ use crate::elements::Element;
 use crate::error::{Error, Result};
 use crate::geometry::Vec3;
 
+pub mod dcd;
 pub mod pdb;
 pub mod sdf;
 pub mod xyz;
