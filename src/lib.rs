@@ -14,6 +14,7 @@
 #![warn(missing_docs)]
 
 pub mod elements;
+pub mod ensemble;
 pub mod error;
 pub mod fragments;
 pub mod geometry;

@@ -1,0 +1,3 @@
+//! Conformer ensembles: weights and populations of the conformers.
+
+pub mod weights;
