@@ -93,3 +93,55 @@ fn methylcyclohexane_chairs_match_rdkit_side_labels() {
     }
     assert_eq!(checked, 24);
 }
+
+/// Methyl β-D-galactopyranoside from `examples/megal.xyz` (made by
+/// `examples/make_ensembles.py` with RDKit 2026.09.1 ETKDGv3 + MMFF94, whose
+/// numpy side asserts O4 axial and O1, O2, O3, C6 equatorial in the lowest
+/// conformer): β-D-galactopyranosides adopt the 4C1 chair (common practice).
+/// With the ring order O5, C1 … C5, the descriptor must read "4C1" and θ lies
+/// near 0° (the pyranose convention, from memory).
+#[test]
+fn galactoside_example_is_4c1() {
+    let frames = frames(include_str!("../examples/megal.xyz"));
+    assert!(!frames.is_empty());
+    // 0-based: O5 = 3, C1 = 2, C2 = 11, C3 = 9, C4 = 7, C5 = 4.
+    let ring = [3, 2, 11, 9, 7, 4];
+    let locants = ["O5", "1", "2", "3", "4", "5"];
+    for atoms in &frames {
+        let coords: Vec<Vec3> = atoms.iter().map(|a| a.1).collect();
+        let p = Pucker::from_indices(&coords, &ring).unwrap();
+        assert_eq!(p.shape(), Shape::Chair);
+        assert_eq!(p.chair_descriptor(&locants, 1).as_deref(), Some("4C1"));
+        assert!(p.theta_deg().unwrap() < 22.5);
+        // O4 (0-based 8) on C4 axial, O2 (12) on C2 equatorial.
+        assert_eq!(p.position(4, &coords[7], &coords[8]), Position::Axial);
+        assert_eq!(
+            p.position(2, &coords[11], &coords[12]),
+            Position::Equatorial
+        );
+    }
+}
+
+/// The two chairs of cis-2-methylcyclohexan-1-ol in `examples/cis2mech.xyz`
+/// (RDKit 2026.09.1; the script's numpy side gave θ = 179.3° and 0.6° for
+/// ring order C1 … C6) sit at opposite poles, methyl equatorial then axial.
+#[test]
+fn cyclohexanol_example_chairs() {
+    let frames = frames(include_str!("../examples/cis2mech.xyz"));
+    assert_eq!(frames.len(), 2);
+    let ring = [6, 1, 2, 3, 4, 5];
+    let mut thetas = Vec::new();
+    for (k, atoms) in frames.iter().enumerate() {
+        let coords: Vec<Vec3> = atoms.iter().map(|a| a.1).collect();
+        let p = Pucker::from_indices(&coords, &ring).unwrap();
+        thetas.push(p.theta_deg().unwrap());
+        let want = if k == 0 {
+            Position::Equatorial
+        } else {
+            Position::Axial
+        };
+        assert_eq!(p.position(1, &coords[1], &coords[0]), want);
+    }
+    assert!((thetas[0] - 179.3).abs() < 0.1, "{thetas:?}");
+    assert!((thetas[1] - 0.6).abs() < 0.1, "{thetas:?}");
+}

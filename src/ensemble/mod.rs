@@ -3,3 +3,4 @@
 
 pub mod average;
 pub mod source;
+pub mod weights;
