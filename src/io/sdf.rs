@@ -282,6 +282,15 @@ impl SdfReader {
                     format!("atom count mismatch: counts line (line {counts_no}) says {na} atoms, but the atom block has {k}"),
                 ));
             }
+            let looks_like_bond =
+                fields(line).count() >= 3 && fields(line).all(|t| parse_i64(t).is_some());
+            if looks_like_bond {
+                return Err(Error::parse(
+                    &self.path,
+                    no,
+                    format!("atom count mismatch: counts line (line {counts_no}) says {na} atoms, but the atom block has {k} (this line looks like a bond line)"),
+                ));
+            }
             let (p, el, q) = v2000_atom(line).map_err(|m| {
                 Error::parse(
                     &self.path,
