@@ -18,6 +18,8 @@ pub mod error;
 pub mod fragments;
 pub mod geometry;
 pub mod io;
+pub mod karplus;
+pub mod plot;
 pub mod topology;
 
 pub use error::{Error, Result};
