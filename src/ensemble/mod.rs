@@ -3,5 +3,6 @@
 
 pub mod average;
 pub mod predict;
+pub mod relabel;
 pub mod source;
 pub mod weights;

@@ -13,6 +13,7 @@ use std::path::PathBuf;
 use serde::Serialize;
 
 use super::average::{spread, Spread};
+use super::relabel::ProtonPairing;
 use super::source::EnsembleSource;
 use super::weights::{self, EnergyUnit};
 use crate::error::{Error, Result};
@@ -169,10 +170,13 @@ struct Accumulator {
     ring_shapes: Vec<Vec<RingShape>>,
     ring_protons: Vec<(usize, usize, usize, usize)>,
     positions: Vec<Vec<String>>,
+    pairing: ProtonPairing,
+    scratch: Vec<crate::geometry::Vec3>,
+    repaired: usize,
 }
 
 impl Accumulator {
-    fn new(top: &Topology, opts: &PredictOptions) -> Result<Accumulator> {
+    fn new(top: &Topology, first: &Frame, opts: &PredictOptions) -> Result<Accumulator> {
         let frags = fragments::enumerate(top);
         let prepared = karplus::prepare_all(&frags.pairs, top, &opts.library, &opts.choice)?;
         let n = prepared.pairs.len();
@@ -195,11 +199,29 @@ impl Accumulator {
             frags,
             phi: vec![Vec::new(); n],
             j: vec![Vec::new(); n],
+            pairing: ProtonPairing::new(top, &first.coords),
+            scratch: Vec::new(),
+            repaired: 0,
         })
     }
 
     fn add(&mut self, top: &Topology, frame: &Frame, conformer: usize) -> Result<()> {
-        let c = &frame.coords;
+        let mut scratch = std::mem::take(&mut self.scratch);
+        if self.pairing.apply(&frame.coords, &mut scratch) > 0 {
+            self.repaired += 1;
+        }
+        let result = self.add_coords(top, frame, &scratch, conformer);
+        self.scratch = scratch;
+        result
+    }
+
+    fn add_coords(
+        &mut self,
+        top: &Topology,
+        frame: &Frame,
+        c: &[crate::geometry::Vec3],
+        conformer: usize,
+    ) -> Result<()> {
         let at = |e: Error| match e {
             Error::Model(m) => Error::Conformer {
                 path: frame.path.clone(),
@@ -268,7 +290,7 @@ pub fn predict(mut source: EnsembleSource, opts: &PredictOptions) -> Result<Pred
             .topology()
             .ok_or_else(|| Error::Structure("no topology after the first conformer".into()))?;
         if acc.is_none() {
-            acc = Some(Accumulator::new(top, opts)?);
+            acc = Some(Accumulator::new(top, &frame, opts)?);
         }
         if let Some(a) = acc.as_mut() {
             a.add(top, &frame, n)?;
@@ -297,6 +319,12 @@ pub fn predict(mut source: EnsembleSource, opts: &PredictOptions) -> Result<Pred
         .iter()
         .map(|w| w.to_string())
         .collect();
+    if acc.repaired > 0 {
+        warnings.push(format!(
+            "in {} conformer(s) the two protons of a CH2 (or other two-proton centre) sat the other way round from conformer 1, as conformer generators often place them; they were re-paired by geometry, so each proton keeps its conformer-1 position",
+            acc.repaired
+        ));
+    }
     let weighting = apply_weights(&mut conformers, &opts.weighting)?;
     let p: Vec<f64> = conformers.iter().map(|c| c.population).collect();
     let n_eff = weights::effective_count(&p);
