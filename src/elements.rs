@@ -56,7 +56,10 @@ impl Element {
 
     /// The element with this atomic number, if the table lists it.
     pub fn from_atomic_number(z: u8) -> Option<Element> {
-        table().by_z.get(z as usize).and_then(|i| i.map(|_| Element(z)))
+        table()
+            .by_z
+            .get(z as usize)
+            .and_then(|i| i.map(|_| Element(z)))
     }
 
     /// The element for a symbol, case-insensitive (`c`, `CL`, `Cl`); `D` and `T`

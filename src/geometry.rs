@@ -101,7 +101,11 @@ mod tests {
 
     #[test]
     fn wrap() {
-        assert_abs_diff_eq!(wrap_angle(3.0 * std::f64::consts::PI), std::f64::consts::PI, epsilon = 1e-12);
+        assert_abs_diff_eq!(
+            wrap_angle(3.0 * std::f64::consts::PI),
+            std::f64::consts::PI,
+            epsilon = 1e-12
+        );
         assert_abs_diff_eq!(wrap_angle(-0.5), -0.5, epsilon = 1e-12);
     }
 }

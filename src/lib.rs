@@ -15,6 +15,7 @@
 
 pub mod elements;
 pub mod error;
+pub mod fit;
 pub mod fragments;
 pub mod geometry;
 pub mod io;

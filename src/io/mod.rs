@@ -172,7 +172,10 @@ pub trait FrameReader {
 /// Opens a file (or standard input for `-`) for reading; large buffers.
 pub fn open_input(path: &Path) -> Result<Box<dyn BufRead>> {
     if path.as_os_str() == "-" {
-        Ok(Box::new(BufReader::with_capacity(1 << 20, std::io::stdin())))
+        Ok(Box::new(BufReader::with_capacity(
+            1 << 20,
+            std::io::stdin(),
+        )))
     } else {
         let f = File::open(path).map_err(|e| Error::io(path, e))?;
         Ok(Box::new(BufReader::with_capacity(1 << 20, f)))
