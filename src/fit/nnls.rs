@@ -66,11 +66,41 @@ pub struct NnlsWorkspace {
     rejected: Vec<bool>,
     rejected_list: Vec<usize>,
     iterations: usize,
+    removals: usize,
+    full_checks: usize,
+    /// Number of leading entries of `u` that are valid for the current R.
+    u_valid: usize,
+    /// Working set of candidate columns.
+    cand: Vec<usize>,
+    is_cand: Vec<bool>,
+    scratch: Vec<(f64, usize)>,
 }
 
+/// Dot product with eight independent accumulators (lets the compiler
+/// vectorise; a single running sum cannot be reordered).
 #[inline]
 fn dot(a: &[f64], b: &[f64]) -> f64 {
-    a.iter().zip(b).map(|(x, y)| x * y).sum()
+    let n = a.len().min(b.len());
+    let (a, b) = (&a[..n], &b[..n]);
+    let mut acc = [0.0; 8];
+    let mut ca = a.chunks_exact(8);
+    let mut cb = b.chunks_exact(8);
+    for (x, y) in (&mut ca).zip(&mut cb) {
+        for l in 0..8 {
+            acc[l] += x[l] * y[l];
+        }
+    }
+    let mut tail = 0.0;
+    for (x, y) in ca.remainder().iter().zip(cb.remainder()) {
+        tail += x * y;
+    }
+    ((acc[0] + acc[1]) + (acc[2] + acc[3])) + ((acc[4] + acc[5]) + (acc[6] + acc[7])) + tail
+}
+
+/// (a·r, a·a) in one pass.
+#[inline]
+fn dot2(a: &[f64], r: &[f64]) -> (f64, f64) {
+    (dot(a, r), dot(a, a))
 }
 
 impl NnlsWorkspace {
@@ -90,9 +120,21 @@ impl NnlsWorkspace {
         &self.set
     }
 
-    /// Main-loop iterations of the last solve.
+    /// Main-loop iterations (columns brought in) of the last solve.
     pub fn iterations(&self) -> usize {
         self.iterations
+    }
+
+    /// Full passes over all columns (optimality checks) and final size of
+    /// the working set of the last solve.
+    pub fn full_checks(&self) -> (usize, usize) {
+        (self.full_checks, self.cand.len())
+    }
+
+    /// Columns dropped from the passive set during the last solve (warm-start
+    /// pruning and inner-loop steps).
+    pub fn removals(&self) -> usize {
+        self.removals
     }
 
     fn resize(&mut self, m: usize, n: usize) {
@@ -114,6 +156,7 @@ impl NnlsWorkspace {
         self.b.clear();
         self.z.clear();
         self.u.clear();
+        self.u_valid = 0;
     }
 
     /// Appends column `j` to the Cholesky factor; false if it is (nearly)
@@ -152,108 +195,253 @@ impl NnlsWorkspace {
     fn pop(&mut self) {
         self.set.pop();
         self.b.pop();
+        self.u_valid = self.u_valid.min(self.set.len());
     }
 
-    /// Solves RᵀR z = b into `self.z`.
+    /// Solves RᵀR z = b into `self.z`. The forward part u = R⁻ᵀ b is kept
+    /// between calls: appending a column extends it by one entry, so only
+    /// the entries past `u_valid` are computed; the back substitution runs
+    /// column by column (contiguous access).
     fn solve_z(&mut self) {
         let k = self.set.len();
         let cap = self.cap;
-        self.u.clear();
-        for i in 0..k {
+        self.u.truncate(self.u_valid.min(k));
+        for i in self.u.len()..k {
             let acc = self.b[i] - dot(&self.r[i * cap..i * cap + i], &self.u[..i]);
             self.u.push(acc / self.r[i * cap + i]);
         }
+        self.u_valid = k;
         self.z.clear();
-        self.z.resize(k, 0.0);
+        self.z.extend_from_slice(&self.u);
         for i in (0..k).rev() {
-            let mut acc = self.u[i];
-            for l in i + 1..k {
-                acc -= self.r[l * cap + i] * self.z[l];
+            let zi = self.z[i] / self.r[i * cap + i];
+            self.z[i] = zi;
+            let col = &self.r[i * cap..i * cap + i];
+            for (zl, &rl) in self.z[..i].iter_mut().zip(col) {
+                *zl -= zi * rl;
             }
-            self.z[i] = acc / self.r[i * cap + i];
         }
     }
 
-    /// Rebuilds the factor for the current `set` (after removals).
-    fn rebuild(&mut self, e: &[f64], m: usize, f: &[f64]) {
-        let old = std::mem::take(&mut self.set);
-        self.b.clear();
-        for &j in &old {
-            if !self.push(e, m, f, j) {
-                self.passive[j] = false;
-                self.x[j] = 0.0;
+    /// Drops from the factor every column whose `passive` flag is cleared,
+    /// by deleting its column of R and restoring the triangle with Givens
+    /// rotations (Golub & Van Loan, *Matrix Computations*, 4th ed., §6.5.2):
+    /// O(k²) per column instead of a refactorisation.
+    fn drop_inactive(&mut self) {
+        let cap = self.cap;
+        let mut pos = 0;
+        while pos < self.set.len() {
+            if self.passive[self.set[pos]] {
+                pos += 1;
+                continue;
             }
+            let k = self.set.len();
+            // Shift columns pos+1..k left by one (rows 0..=j+1 are live).
+            for j in pos..k - 1 {
+                let (dst, src) = self.r.split_at_mut((j + 1) * cap);
+                dst[j * cap..j * cap + j + 2].copy_from_slice(&src[..j + 2]);
+            }
+            // Columns pos..k−1 now have one sub-diagonal entry each.
+            for c in pos..k - 1 {
+                let a = self.r[c * cap + c];
+                let b = self.r[c * cap + c + 1];
+                let h = (a * a + b * b).sqrt();
+                if h == 0.0 {
+                    continue;
+                }
+                let (cs, sn) = (a / h, b / h);
+                self.r[c * cap + c] = h;
+                self.r[c * cap + c + 1] = 0.0;
+                for j in c + 1..k - 1 {
+                    let u = self.r[j * cap + c];
+                    let v = self.r[j * cap + c + 1];
+                    self.r[j * cap + c] = cs * u + sn * v;
+                    self.r[j * cap + c + 1] = -sn * u + cs * v;
+                }
+            }
+            self.set.remove(pos);
+            self.b.remove(pos);
+            self.removals += 1;
+            // The rotations changed R from column `pos` on.
+            self.u_valid = self.u_valid.min(pos);
         }
     }
 
     /// Solves min ‖E x − f‖ subject to x ≥ 0 for the column-major m×n matrix
     /// `e` (as stored by nalgebra), optionally warm-started from the passive
-    /// set `warm` of an earlier, similar problem. Returns whether the
-    /// algorithm converged within its iteration limit (3n + |warm| + 10); the
-    /// solution is in [`x`](Self::x) either way.
+    /// set `warm` of an earlier, similar problem (pruned until its
+    /// least-squares solution is positive). Returns whether the algorithm
+    /// converged within its iteration limit (3n + |warm| + 10); the solution
+    /// is in [`x`](Self::x) either way.
     pub fn solve(&mut self, e: &DMatrix<f64>, f: &[f64], warm: &[usize]) -> bool {
+        self.solve_impl(e, f, Start::Set(warm), &Hint::default())
+    }
+
+    /// Like [`solve`](Self::solve), started from the feasible point `x0`
+    /// (n entries, all ≥ 0), e.g. the solution of a nearby problem: the
+    /// Lawson–Hanson inner loop walks from `x0` towards the least-squares
+    /// solution on its support, dropping only the columns that block.
+    /// `hint` can spare the solver its first full pass over E.
+    pub fn solve_from(&mut self, e: &DMatrix<f64>, f: &[f64], x0: &[f64], hint: &Hint<'_>) -> bool {
+        self.solve_impl(e, f, Start::Point(x0), hint)
+    }
+
+    /// The Lawson–Hanson inner loop (steps 8–11): from a feasible x with
+    /// x_P > 0 and z = LS solution on P, step towards z until feasible.
+    fn inner_loop(&mut self) {
+        loop {
+            if self.set.is_empty() {
+                return;
+            }
+            self.solve_z();
+            if self.z.iter().all(|&v| v > 0.0) {
+                for i in 0..self.set.len() {
+                    self.x[self.set[i]] = self.z[i];
+                }
+                return;
+            }
+            let mut alpha = f64::INFINITY;
+            let mut arg = usize::MAX;
+            for i in 0..self.set.len() {
+                if self.z[i] <= 0.0 {
+                    let xi = self.x[self.set[i]];
+                    let a = xi / (xi - self.z[i]);
+                    if a < alpha {
+                        alpha = a;
+                        arg = i;
+                    }
+                }
+            }
+            for i in 0..self.set.len() {
+                let j = self.set[i];
+                let xj = self.x[j] + alpha * (self.z[i] - self.x[j]);
+                self.x[j] = if i == arg || xj <= 0.0 { 0.0 } else { xj };
+                if self.x[j] == 0.0 {
+                    self.passive[j] = false;
+                }
+            }
+            self.drop_inactive();
+        }
+    }
+
+    /// The solver proper. Speed-up of our own over the textbook loop: the
+    /// dual vector g = Eᵀ(f − E x), whose full evaluation costs m·n per
+    /// iteration, is evaluated only on a working set of candidate columns
+    /// (the start support plus the 2m columns of largest g); when no
+    /// candidate can enter, g is evaluated on all columns and any violators
+    /// join the working set. The algorithm stops only when no column at all
+    /// violates the optimality test, so the optimum is the same as Lawson and
+    /// Hanson's.
+    fn solve_impl(
+        &mut self,
+        e: &DMatrix<f64>,
+        f: &[f64],
+        start: Start<'_>,
+        hint: &Hint<'_>,
+    ) -> bool {
         let (m, n) = e.shape();
         let es = e.as_slice();
         self.resize(m, n);
         self.iterations = 0;
+        self.removals = 0;
+        self.full_checks = 0;
         if m == 0 || n == 0 {
             return true;
         }
-        // Warm start: take the warm set, prune until its LS solution is > 0.
-        for &j in warm {
-            if j < n && !self.passive[j] && self.push(es, m, f, j) {
-                self.passive[j] = true;
-            }
-        }
-        while !self.set.is_empty() {
-            self.solve_z();
-            if self.z.iter().all(|&v| v > 0.0) {
-                break;
-            }
-            for i in 0..self.set.len() {
-                if self.z[i] <= 0.0 {
-                    self.passive[self.set[i]] = false;
+        let mut extra = 0;
+        match start {
+            Start::Set(warm) => {
+                extra = warm.len();
+                for &j in warm {
+                    if j < n && !self.passive[j] && self.push(es, m, f, j) {
+                        self.passive[j] = true;
+                    }
+                }
+                // Prune until the LS solution on the warm set is positive.
+                while !self.set.is_empty() {
+                    self.solve_z();
+                    if self.z.iter().all(|&v| v > 0.0) {
+                        break;
+                    }
+                    for i in 0..self.set.len() {
+                        if self.z[i] <= 0.0 {
+                            self.passive[self.set[i]] = false;
+                        }
+                    }
+                    self.drop_inactive();
+                }
+                for i in 0..self.set.len() {
+                    self.x[self.set[i]] = self.z[i];
                 }
             }
-            let passive = &self.passive;
-            self.set.retain(|&j| passive[j]);
-            self.rebuild(es, m, f);
-        }
-        if !self.set.is_empty() {
-            for i in 0..self.set.len() {
-                self.x[self.set[i]] = self.z[i];
+            Start::Point(x0) => {
+                for (j, &v) in x0.iter().enumerate().take(n) {
+                    if v > 0.0 && v.is_finite() && self.push(es, m, f, j) {
+                        self.passive[j] = true;
+                        self.x[j] = v;
+                        extra += 1;
+                    }
+                }
+                self.inner_loop();
             }
         }
         let fnorm = dot(f, f).sqrt();
-        let max_col = (0..n)
-            .map(|j| dot(&es[j * m..(j + 1) * m], &es[j * m..(j + 1) * m]))
-            .fold(0.0_f64, f64::max)
-            .sqrt();
-        let tol = 1e-13 * (m.max(n) as f64) * max_col * fnorm.max(f64::MIN_POSITIVE);
-        let max_iter = 3 * n + warm.len() + 10;
-
-        loop {
-            // Residual and dual vector (negative gradient) g = Eᵀ(f − E x).
-            self.resid.copy_from_slice(f);
-            for &j in &self.set {
-                let xj = self.x[j];
-                for (r, &ev) in self.resid.iter_mut().zip(&es[j * m..(j + 1) * m]) {
-                    *r -= xj * ev;
+        let max_iter = 3 * n + extra + 10;
+        let limit = (2 * m).max(16).min(n);
+        self.cand.clear();
+        self.is_cand.clear();
+        self.is_cand.resize(n, false);
+        for i in 0..self.set.len() {
+            let j = self.set[i];
+            self.is_cand[j] = true;
+            self.cand.push(j);
+        }
+        self.compute_resid(es, m, f);
+        let tol;
+        let mut fresh;
+        if let (Some(col), false) = (hint.max_column_norm, hint.candidates.is_empty()) {
+            tol = 1e-13 * (m.max(n) as f64) * col * fnorm.max(f64::MIN_POSITIVE);
+            for &j in hint.candidates {
+                if j < n && !self.is_cand[j] {
+                    self.is_cand[j] = true;
+                    self.cand.push(j);
                 }
             }
+            fresh = false;
+        } else {
+            // Full dual vector at the start; its pass also gives the largest
+            // column norm, which scales the tolerance.
+            let mut max_col2 = 0.0_f64;
             for j in 0..n {
-                self.grad[j] = if self.passive[j] {
-                    0.0
-                } else {
-                    dot(&es[j * m..(j + 1) * m], &self.resid)
-                };
+                let (g, nn) = dot2(&es[j * m..(j + 1) * m], &self.resid);
+                max_col2 = max_col2.max(nn);
+                self.grad[j] = g;
             }
-            // Bring in the most promising column that keeps the LS solution
-            // positive in its own component (Lawson & Hanson steps 5–7).
+            let col = hint.max_column_norm.unwrap_or(max_col2.sqrt());
+            tol = 1e-13 * (m.max(n) as f64) * col * fnorm.max(f64::MIN_POSITIVE);
+            self.add_violators(tol, limit);
+            fresh = true;
+        }
+
+        loop {
+            if !fresh {
+                self.compute_resid(es, m, f);
+                for &j in &self.cand {
+                    self.grad[j] = if self.passive[j] {
+                        0.0
+                    } else {
+                        dot(&es[j * m..(j + 1) * m], &self.resid)
+                    };
+                }
+            }
+            fresh = false;
+            // Bring in the most promising candidate that keeps the LS
+            // solution positive in its own component (Lawson & Hanson
+            // steps 5–7).
             let entered = loop {
                 let mut best = None;
                 let mut best_g = tol;
-                for j in 0..n {
+                for &j in &self.cand {
                     if !self.passive[j] && !self.rejected[j] && self.grad[j] > best_g {
                         best_g = self.grad[j];
                         best = Some(j);
@@ -279,50 +467,82 @@ impl NnlsWorkspace {
             }
             self.rejected_list.clear();
             if !entered {
-                return true;
+                // Optimal on the working set: check every other column.
+                self.full_checks += 1;
+                for j in 0..n {
+                    if !self.is_cand[j] {
+                        self.grad[j] = dot(&es[j * m..(j + 1) * m], &self.resid);
+                    }
+                }
+                if !self.add_violators(tol, limit) {
+                    return true;
+                }
+                fresh = true;
+                continue;
             }
             self.iterations += 1;
-            // Inner loop (steps 8–11): step back to feasibility.
-            loop {
-                if self.z.iter().all(|&v| v > 0.0) {
-                    for i in 0..self.set.len() {
-                        self.x[self.set[i]] = self.z[i];
-                    }
-                    break;
-                }
-                let mut alpha = f64::INFINITY;
-                let mut arg = usize::MAX;
-                for i in 0..self.set.len() {
-                    if self.z[i] <= 0.0 {
-                        let xi = self.x[self.set[i]];
-                        let a = xi / (xi - self.z[i]);
-                        if a < alpha {
-                            alpha = a;
-                            arg = i;
-                        }
-                    }
-                }
-                for i in 0..self.set.len() {
-                    let j = self.set[i];
-                    let xj = self.x[j] + alpha * (self.z[i] - self.x[j]);
-                    self.x[j] = if i == arg || xj <= 0.0 { 0.0 } else { xj };
-                    if self.x[j] == 0.0 {
-                        self.passive[j] = false;
-                    }
-                }
-                let passive = &self.passive;
-                self.set.retain(|&j| passive[j]);
-                self.rebuild(es, m, f);
-                if self.set.is_empty() {
-                    break;
-                }
-                self.solve_z();
-            }
+            self.inner_loop();
             if self.iterations > max_iter {
                 return false;
             }
         }
     }
+
+    /// r = f − E x over the passive set.
+    fn compute_resid(&mut self, es: &[f64], m: usize, f: &[f64]) {
+        self.resid.copy_from_slice(f);
+        for &j in &self.set {
+            let xj = self.x[j];
+            for (r, &ev) in self.resid.iter_mut().zip(&es[j * m..(j + 1) * m]) {
+                *r -= xj * ev;
+            }
+        }
+    }
+
+    /// Adds to the working set the (up to `limit`) non-candidate columns
+    /// with the largest dual value above `tol`; false if there are none.
+    fn add_violators(&mut self, tol: f64, limit: usize) -> bool {
+        self.scratch.clear();
+        for j in 0..self.grad.len() {
+            if !self.is_cand[j] && !self.passive[j] && self.grad[j] > tol {
+                self.scratch.push((self.grad[j], j));
+            }
+        }
+        if self.scratch.is_empty() {
+            return false;
+        }
+        if self.scratch.len() > limit {
+            self.scratch
+                .select_nth_unstable_by(limit - 1, |a, b| b.0.total_cmp(&a.0));
+            self.scratch.truncate(limit);
+        }
+        for &(_, j) in &self.scratch {
+            self.is_cand[j] = true;
+            self.cand.push(j);
+        }
+        true
+    }
+}
+
+/// Optional knowledge that spares [`NnlsWorkspace::solve_from`] its first
+/// full pass over the matrix.
+#[derive(Debug, Clone, Copy, Default)]
+pub struct Hint<'a> {
+    /// An upper bound on the largest column norm of E (scales the
+    /// optimality tolerance).
+    pub max_column_norm: Option<f64>,
+    /// Columns likely to enter (for example the support and the columns of
+    /// largest dual value of a nearby problem); used with
+    /// `max_column_norm` as the initial working set.
+    pub candidates: &'a [usize],
+}
+
+/// How a solve starts.
+enum Start<'a> {
+    /// From a set of columns, pruned to a positive LS solution.
+    Set(&'a [usize]),
+    /// From a feasible point.
+    Point(&'a [f64]),
 }
 
 /// Solves min ‖E x − f‖₂ subject to x ≥ 0 (Lawson & Hanson 1974, Algorithm
