@@ -97,6 +97,23 @@ pub enum Diagnostic {
     /// As many free parameters as couplings: the fit can be exact and no
     /// goodness-of-fit test is possible.
     NoDegreesOfFreedom,
+    /// The reference ensemble already meets the χ² target: no reweighting.
+    ReferenceAlreadyFits {
+        /// χ²/n_obs of the reference weights.
+        reduced_chi2: f64,
+    },
+    /// No reweighting reaches the χ² target.
+    TargetUnreachable {
+        /// The target χ²/n_obs.
+        target: f64,
+        /// The best χ²/n_obs reached.
+        best_reduced_chi2: f64,
+    },
+    /// The reweighted ensemble keeps little of the reference.
+    LittleOfReferenceKept {
+        /// exp(−S_KL).
+        kept_fraction: f64,
+    },
 }
 
 fn list(names: &[String]) -> String {
@@ -119,6 +136,7 @@ impl Diagnostic {
             Diagnostic::PinnedAtZero { .. }
             | Diagnostic::PinnedAtOne { .. }
             | Diagnostic::NoDegreesOfFreedom
+            | Diagnostic::ReferenceAlreadyFits { .. }
             | Diagnostic::MoreSameCouplings { .. } => Severity::Note,
             _ => Severity::Warning,
         }
@@ -176,6 +194,23 @@ impl Diagnostic {
             Diagnostic::LargeResiduals { observations } => format!(
                 "couplings {} are more than 2 standard errors from the fit",
                 list(observations)
+            ),
+            Diagnostic::ReferenceAlreadyFits { reduced_chi2 } => format!(
+                "the computed ensemble already fits the couplings (chi-squared per coupling \
+                 {reduced_chi2:.2}): its weights are kept as they are"
+            ),
+            Diagnostic::TargetUnreachable {
+                target,
+                best_reduced_chi2,
+            } => format!(
+                "no reweighting of the computed ensemble brings chi-squared per coupling down to \
+                 {target} (best {best_reduced_chi2:.2}): the ensemble lacks conformers that \
+                 match the data, or the coupling model or standard errors are off"
+            ),
+            Diagnostic::LittleOfReferenceKept { kept_fraction } => format!(
+                "the reweighting keeps only {:.1} % of the computed ensemble: the data ask for \
+                 a very different ensemble, so treat the energies behind it with suspicion",
+                kept_fraction * 100.0
             ),
             Diagnostic::NoDegreesOfFreedom => "as many free populations as couplings: the fit \
                  can be exact, and its quality cannot be tested"
