@@ -626,6 +626,18 @@ mod tests {
         }
     }
 
+    /// A case proptest once shrank to (m = 2, n = 4, seed 60011): the fit
+    /// came out slightly *below* the enumeration, whose SVD solves are the
+    /// less accurate of the two.
+    #[test]
+    fn brute_force_case_m2_n4() {
+        let mut rng = Xoshiro256StarStar::seed_from_u64(60011);
+        let p = random_problem(&mut rng, 2, 4);
+        let x = solve_populations(&p).unwrap();
+        check_kkt(&p, &x);
+        assert!(p.chi2(&x) <= brute_force(&p) + 1e-8);
+    }
+
     proptest! {
         #[test]
         fn matches_brute_force_and_kkt(
@@ -639,7 +651,10 @@ mod tests {
             check_kkt(&p, &x);
             let got = p.chi2(&x);
             let best = brute_force(&p);
-            prop_assert!((got - best).abs() <= 1e-8 * (1.0 + best), "fit {got} brute {best}");
+            // Never worse than the enumeration; the enumeration's SVD solves
+            // of near-singular KKT systems can themselves be a little off.
+            prop_assert!(got <= best + 1e-8 * (1.0 + best), "fit {got} brute {best}");
+            prop_assert!(got >= best - 1e-6 * (1.0 + best), "fit {got} brute {best}");
         }
     }
 }
