@@ -17,6 +17,7 @@ pub mod atomref;
 pub mod elements;
 pub mod ensemble;
 pub mod error;
+pub mod fit;
 pub mod fragments;
 pub mod geometry;
 pub mod io;
