@@ -3,7 +3,8 @@
 //! from the [`Topology`]; geometry-dependent quantities (dihedrals, the
 //! orientation signs ξ) are evaluated per conformer elsewhere.
 
-use crate::topology::Topology;
+use crate::elements::Element;
+use crate::topology::{Hybridization, Topology};
 
 /// The kind of a vicinal fragment, which decides the default coupling model.
 #[derive(Debug, Clone, Copy, PartialEq, Eq, Hash, serde::Serialize, serde::Deserialize)]
@@ -113,8 +114,120 @@ pub struct Fragments {
     pub rotors: Vec<Rotor>,
 }
 
-/// Enumerates every vicinal H–X–Y–H path of `top`. (Placeholder until
-/// fragment perception lands.)
-pub fn enumerate(_top: &Topology) -> Fragments {
-    Fragments::default()
+/// Enumerates every vicinal H–X–Y–H path of `top`: X and Y bonded non-hydrogen
+/// atoms, each carrying at least one hydrogen. Each path appears once, oriented
+/// so that `h1 < h2` (`h1` on `x`); pairs are sorted by `(h1, h2)`. Geminal
+/// protons on one carbon (CH2) stay distinct pairs. Methyl groups (a carbon
+/// with exactly three H and one heavy neighbour) and ammonium groups (an N with
+/// three H and one heavy neighbour, charged +1 or with four neighbours) become
+/// [`Rotor`]s, sorted by their centre atom.
+///
+/// The kind follows the elements and hybridisation of X and Y: C(sp3)–C(sp3),
+/// C(sp3)–C(sp2), C(sp2)–C(sp2), N–C (with the amide flag of the N), O–C, and
+/// [`FragmentKind::Other`] for everything else (including sp carbons).
+pub fn enumerate(top: &Topology) -> Fragments {
+    let n = top.len();
+    let mut rotors = Vec::new();
+    let mut rotor_of = vec![None; n];
+    for c in 0..n {
+        if let Some(kind) = rotor_kind(top, c) {
+            let hs: Vec<usize> = top.hydrogens(c).collect();
+            if let [a, b, d] = hs[..] {
+                let k = rotors.len();
+                for &h in &hs {
+                    rotor_of[h] = Some(k);
+                }
+                rotors.push(Rotor {
+                    center: c,
+                    protons: [a, b, d],
+                    kind,
+                });
+            }
+        }
+    }
+
+    let mut pairs = Vec::new();
+    for bond in &top.bonds {
+        let (u, v) = (bond.a, bond.b);
+        if top.atoms[u].element.is_hydrogen() || top.atoms[v].element.is_hydrogen() {
+            continue;
+        }
+        for hu in top.hydrogens(u) {
+            for hv in top.hydrogens(v) {
+                if hu == hv {
+                    continue;
+                }
+                let (h1, x, y, h2) = if hu < hv {
+                    (hu, u, v, hv)
+                } else {
+                    (hv, v, u, hu)
+                };
+                let (kind, amide) = kind_of(top, x, y);
+                pairs.push(VicinalPair {
+                    h1,
+                    x,
+                    y,
+                    h2,
+                    kind,
+                    amide,
+                    subs_x: substituents(top, x, y),
+                    subs_y: substituents(top, y, x),
+                    rotor1: rotor_of[h1],
+                    rotor2: rotor_of[h2],
+                });
+            }
+        }
+    }
+    pairs.sort_by_key(|p| (p.h1, p.h2));
+    Fragments { pairs, rotors }
+}
+
+/// The rotor kind of atom `c`, if it is a methyl carbon or an ammonium nitrogen.
+fn rotor_kind(top: &Topology, c: usize) -> Option<RotorKind> {
+    let el = top.atoms[c].element;
+    let nh = top.hydrogens(c).count();
+    let nheavy = top.heavy_neighbors(c).count();
+    if nh != 3 || nheavy != 1 {
+        return None;
+    }
+    if el == Element::C {
+        Some(RotorKind::Methyl)
+    } else if el == Element::N && (top.atoms[c].charge == 1 || top.neighbors[c].len() == 4) {
+        Some(RotorKind::Ammonium)
+    } else {
+        None
+    }
+}
+
+fn kind_of(top: &Topology, x: usize, y: usize) -> (FragmentKind, bool) {
+    use Hybridization::*;
+    let (ex, ey) = (top.atoms[x].element, top.atoms[y].element);
+    let (hx, hy) = (top.hybridization[x], top.hybridization[y]);
+    match (ex, ey) {
+        (Element::C, Element::C) => {
+            let k = match (hx, hy) {
+                (Sp3, Sp3) => FragmentKind::HCsp3Csp3H,
+                (Sp3, Sp2) | (Sp2, Sp3) => FragmentKind::HCsp3Csp2H,
+                (Sp2, Sp2) => FragmentKind::HCsp2Csp2H,
+                _ => FragmentKind::Other,
+            };
+            (k, false)
+        }
+        (Element::N, Element::C) => (FragmentKind::HNCH, top.is_amide_nitrogen(x)),
+        (Element::C, Element::N) => (FragmentKind::HNCH, top.is_amide_nitrogen(y)),
+        (Element::O, Element::C) | (Element::C, Element::O) => (FragmentKind::HOCH, false),
+        _ => (FragmentKind::Other, false),
+    }
+}
+
+/// Non-hydrogen neighbours of `x` other than `y`, each with its own non-hydrogen
+/// neighbours other than `x`.
+fn substituents(top: &Topology, x: usize, y: usize) -> Vec<Substituent> {
+    top.heavy_neighbors(x)
+        .filter(|&a| a != y)
+        .map(|a| Substituent {
+            atom: a,
+            beta: top.heavy_neighbors(a).filter(|&b| b != x).collect(),
+        })
+        .collect()
 }

@@ -4,6 +4,7 @@
 use crate::elements::Element;
 use crate::io::{Bond, BondOrder, Frame};
 
+pub mod hybrid;
 pub mod perceive;
 pub mod rings;
 
@@ -105,6 +106,12 @@ impl Topology {
             .iter()
             .copied()
             .filter(move |&j| self.atoms[j].element.is_hydrogen())
+    }
+
+    /// True if atom i is an amide nitrogen (N bonded to a carbon carrying a
+    /// carbonyl oxygen); see [`hybrid::is_amide_nitrogen`].
+    pub fn is_amide_nitrogen(&self, i: usize) -> bool {
+        hybrid::is_amide_nitrogen(&self.atoms, &self.neighbors, &self.hybridization, i)
     }
 
     /// The rings (indices into `rings`) that contain atom i.
