@@ -231,3 +231,242 @@ fn substituents(top: &Topology, x: usize, y: usize) -> Vec<Substituent> {
         })
         .collect()
 }
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::io::{Bond, BondOrder};
+    use crate::topology::{Atom, BondSource};
+
+    /// A topology from elements, bonds and hybridisations (no geometry).
+    fn topo(
+        els: &[Element],
+        bonds: &[(usize, usize)],
+        hyb: &[Hybridization],
+        charge: &[i8],
+    ) -> Topology {
+        let n = els.len();
+        let mut b: Vec<Bond> = bonds
+            .iter()
+            .map(|&(i, j)| Bond::new(i, j, BondOrder::Unknown))
+            .collect();
+        b.sort_by_key(|x| (x.a, x.b));
+        let mut nb = vec![Vec::new(); n];
+        for x in &b {
+            nb[x.a].push(x.b);
+            nb[x.b].push(x.a);
+        }
+        for x in &mut nb {
+            x.sort_unstable();
+        }
+        Topology {
+            atoms: (0..n)
+                .map(|i| Atom {
+                    element: els[i],
+                    name: None,
+                    charge: charge.get(i).copied().unwrap_or(0),
+                })
+                .collect(),
+            bonds: b,
+            neighbors: nb,
+            bond_source: BondSource::Distance,
+            rings: Vec::new(),
+            hybridization: hyb.to_vec(),
+        }
+    }
+
+    use Element as E;
+    use Hybridization::{Other as Ot, Sp2, Sp3};
+
+    #[test]
+    fn ethanol() {
+        // C0 H3 H4 H5; C1 H6 H7; O2 H8
+        let t = topo(
+            &[E::C, E::C, E::O, E::H, E::H, E::H, E::H, E::H, E::H],
+            &[
+                (0, 1),
+                (1, 2),
+                (0, 3),
+                (0, 4),
+                (0, 5),
+                (1, 6),
+                (1, 7),
+                (2, 8),
+            ],
+            &[Sp3, Sp3, Sp3, Ot, Ot, Ot, Ot, Ot, Ot],
+            &[],
+        );
+        let f = enumerate(&t);
+        assert_eq!(f.pairs.len(), 8);
+        assert_eq!(
+            f.rotors,
+            vec![Rotor {
+                center: 0,
+                protons: [3, 4, 5],
+                kind: RotorKind::Methyl
+            }]
+        );
+        let keys: Vec<(usize, usize)> = f.pairs.iter().map(|p| (p.h1, p.h2)).collect();
+        let mut sorted = keys.clone();
+        sorted.sort_unstable();
+        assert_eq!(keys, sorted);
+        for p in &f.pairs {
+            assert!(p.h1 < p.h2);
+            assert!(t.bonded(p.h1, p.x) && t.bonded(p.x, p.y) && t.bonded(p.y, p.h2));
+        }
+        let p = &f.pairs[0];
+        assert_eq!((p.h1, p.x, p.y, p.h2), (3, 0, 1, 6));
+        assert_eq!(p.kind, FragmentKind::HCsp3Csp3H);
+        assert_eq!(p.subs_x, vec![]);
+        assert_eq!(
+            p.subs_y,
+            vec![Substituent {
+                atom: 2,
+                beta: vec![]
+            }]
+        );
+        assert_eq!((p.rotor1, p.rotor2), (Some(0), None));
+        let oh: Vec<&VicinalPair> = f
+            .pairs
+            .iter()
+            .filter(|p| p.kind == FragmentKind::HOCH)
+            .collect();
+        assert_eq!(oh.len(), 2);
+        assert!(oh
+            .iter()
+            .all(|p| p.h2 == 8 && p.x == 1 && p.y == 2 && !p.amide));
+        assert_eq!(
+            oh[0].subs_x,
+            vec![Substituent {
+                atom: 0,
+                beta: vec![]
+            }]
+        );
+    }
+
+    #[test]
+    fn kinds_by_hybridisation_and_beta_atoms() {
+        // propene-like: C0(sp3)H3 – C1(sp2)H – C2(sp2)H2, plus a Cl on C0's neighbour? keep: C0–C1=C2
+        // atoms: C0 C1 C2 | H3 H4 H5 on C0 | H6 on C1 | H7 H8 on C2
+        let t = topo(
+            &[E::C, E::C, E::C, E::H, E::H, E::H, E::H, E::H, E::H],
+            &[
+                (0, 1),
+                (1, 2),
+                (0, 3),
+                (0, 4),
+                (0, 5),
+                (1, 6),
+                (2, 7),
+                (2, 8),
+            ],
+            &[Sp3, Sp2, Sp2, Ot, Ot, Ot, Ot, Ot, Ot],
+            &[],
+        );
+        let f = enumerate(&t);
+        let count = |k| f.pairs.iter().filter(|p| p.kind == k).count();
+        assert_eq!(count(FragmentKind::HCsp3Csp2H), 3);
+        assert_eq!(count(FragmentKind::HCsp2Csp2H), 2);
+        let p = f.pairs.iter().find(|p| p.x == 0).unwrap();
+        assert_eq!(
+            p.subs_y,
+            vec![Substituent {
+                atom: 2,
+                beta: vec![]
+            }]
+        );
+        // β atoms: for the C1=C2 pair, C1's substituent C0 has no heavy neighbours but C1.
+        let q = f
+            .pairs
+            .iter()
+            .find(|p| p.kind == FragmentKind::HCsp2Csp2H)
+            .unwrap();
+        assert_eq!((q.x, q.y), (1, 2));
+        assert_eq!(
+            q.subs_x,
+            vec![Substituent {
+                atom: 0,
+                beta: vec![]
+            }]
+        );
+    }
+
+    #[test]
+    fn methylammonium_and_amide() {
+        // CH3–NH3+: C0 N1, H2-4 on C, H5-7 on N
+        let t = topo(
+            &[E::C, E::N, E::H, E::H, E::H, E::H, E::H, E::H],
+            &[(0, 1), (0, 2), (0, 3), (0, 4), (1, 5), (1, 6), (1, 7)],
+            &[Sp3, Sp3, Ot, Ot, Ot, Ot, Ot, Ot],
+            &[0, 1],
+        );
+        let f = enumerate(&t);
+        assert_eq!(f.rotors.len(), 2);
+        assert_eq!(f.rotors[1].kind, RotorKind::Ammonium);
+        assert_eq!(f.pairs.len(), 9);
+        assert!(f
+            .pairs
+            .iter()
+            .all(|p| p.kind == FragmentKind::HNCH && !p.amide));
+        assert!(f
+            .pairs
+            .iter()
+            .all(|p| p.rotor1 == Some(0) && p.rotor2 == Some(1)));
+
+        // N-methylformamide: H–C(=O)–N(H)–CH3. C0(=O1) N2 C3; H4 on C0, H5 on N2, H6-8 on C3.
+        let t = topo(
+            &[E::C, E::O, E::N, E::C, E::H, E::H, E::H, E::H, E::H],
+            &[
+                (0, 1),
+                (0, 2),
+                (2, 3),
+                (0, 4),
+                (2, 5),
+                (3, 6),
+                (3, 7),
+                (3, 8),
+            ],
+            &[Sp2, Sp2, Sp2, Sp3, Ot, Ot, Ot, Ot, Ot],
+            &[],
+        );
+        let f = enumerate(&t);
+        assert_eq!(f.pairs.len(), 4);
+        assert!(f
+            .pairs
+            .iter()
+            .all(|p| p.kind == FragmentKind::HNCH && p.amide));
+        // the formyl H4–C0–N2–H5 path, oriented h1 = 4 on x = C0
+        let p = &f.pairs[0];
+        assert_eq!((p.h1, p.x, p.y, p.h2), (4, 0, 2, 5));
+        assert_eq!(
+            p.subs_x,
+            vec![Substituent {
+                atom: 1,
+                beta: vec![]
+            }]
+        );
+        assert_eq!(
+            p.subs_y,
+            vec![Substituent {
+                atom: 3,
+                beta: vec![]
+            }]
+        );
+        // NH with one proton: not a rotor; only the methyl is.
+        assert_eq!(f.rotors.len(), 1);
+    }
+
+    #[test]
+    fn other_kinds() {
+        // H3Si–CH3 : Other
+        let t = topo(
+            &[E::SI, E::C, E::H, E::H, E::H, E::H, E::H, E::H],
+            &[(0, 1), (0, 2), (0, 3), (0, 4), (1, 5), (1, 6), (1, 7)],
+            &[Sp3, Sp3, Ot, Ot, Ot, Ot, Ot, Ot],
+            &[],
+        );
+        let f = enumerate(&t);
+        assert_eq!(f.pairs.len(), 9);
+        assert!(f.pairs.iter().all(|p| p.kind == FragmentKind::Other));
+    }
+}

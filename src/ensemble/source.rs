@@ -7,7 +7,8 @@ use std::path::PathBuf;
 
 use crate::error::{Error, Result};
 use crate::io::{self, Format, Frame, FrameReader, ReadOptions};
-use crate::topology::{perceive, Topology};
+use crate::topology::perceive::{self, FrameChecker};
+use crate::topology::Topology;
 
 /// How to read the files of an ensemble.
 #[derive(Debug, Clone, Default)]
@@ -25,6 +26,7 @@ pub struct EnsembleSource {
     next_file: usize,
     reader: Option<Box<dyn FrameReader>>,
     topology: Option<Topology>,
+    checker: Option<FrameChecker>,
     count: usize,
 }
 
@@ -40,6 +42,7 @@ impl EnsembleSource {
             next_file: 0,
             reader: None,
             topology: None,
+            checker: None,
             count: 0,
         })
     }
@@ -83,9 +86,13 @@ impl EnsembleSource {
                 continue;
             }
             self.count += 1;
-            match &self.topology {
-                None => self.topology = Some(perceive::build(frame)?),
-                Some(top) => perceive::check_frame(top, frame, self.count)?,
+            match self.checker.as_mut() {
+                None => {
+                    let top = perceive::build(frame)?;
+                    self.checker = Some(FrameChecker::new(&top));
+                    self.topology = Some(top);
+                }
+                Some(checker) => checker.check(frame, self.count)?,
             }
             return Ok(true);
         }

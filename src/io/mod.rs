@@ -11,6 +11,8 @@ use crate::error::{Error, Result};
 use crate::geometry::Vec3;
 
 pub mod dcd;
+pub(crate) mod lines;
+pub mod number;
 pub mod pdb;
 pub mod sdf;
 pub mod xyz;
@@ -151,6 +153,87 @@ impl Frame {
         self.bonds.clear();
         self.has_bonds = false;
     }
+}
+
+/// Sets atom `i`'s name in `names`, reusing the string storage already there.
+/// Readers call it for atoms `0..n` in order, then [`finish_names`].
+#[inline]
+pub(crate) fn set_name(names: &mut Vec<String>, i: usize, name: &str) {
+    if let Some(s) = names.get_mut(i) {
+        s.clear();
+        s.push_str(name);
+    } else {
+        names.push(name.to_string());
+    }
+}
+
+/// Makes `names` hold exactly `n` entries, empty where no name was set this
+/// frame (entries `set` and above are cleared).
+pub(crate) fn finish_names(names: &mut Vec<String>, set: usize, n: usize) {
+    names.truncate(n);
+    for s in names.iter_mut().skip(set) {
+        s.clear();
+    }
+    names.resize_with(n, String::new);
+}
+
+/// The element for a symbol or an atomic number written as bytes
+/// (case-insensitive; `D`, `T` are hydrogen). Uses a lookup table built once,
+/// so it is cheap enough for the per-atom hot path of the readers.
+pub(crate) fn element_from_bytes(tok: &[u8]) -> Option<Element> {
+    use std::sync::OnceLock;
+    static TABLE: OnceLock<Vec<Option<Element>>> = OnceLock::new();
+    fn slot(a: u8, b: Option<u8>) -> Option<usize> {
+        let a = a.to_ascii_uppercase();
+        if !a.is_ascii_uppercase() {
+            return None;
+        }
+        let b = match b {
+            None => 26,
+            Some(b) => {
+                let b = b.to_ascii_uppercase();
+                if !b.is_ascii_uppercase() {
+                    return None;
+                }
+                (b - b'A') as usize
+            }
+        };
+        Some((a - b'A') as usize * 27 + b)
+    }
+    match tok {
+        [a] if a.is_ascii_alphabetic() || a.is_ascii_digit() => {}
+        [a, b] if a.is_ascii_alphabetic() && b.is_ascii_alphabetic() => {}
+        _ => {
+            if !tok.is_empty() && tok.len() <= 3 && tok.iter().all(u8::is_ascii_digit) {
+                let z: u32 = std::str::from_utf8(tok).ok()?.parse().ok()?;
+                return u8::try_from(z).ok().and_then(Element::from_atomic_number);
+            }
+            return Element::from_symbol(std::str::from_utf8(tok).ok()?);
+        }
+    }
+    if tok[0].is_ascii_digit() {
+        return Element::from_atomic_number(tok[0] - b'0');
+    }
+    let table = TABLE.get_or_init(|| {
+        let mut t = vec![None; 26 * 27];
+        for z in 1..=255u8 {
+            if let Some(e) = Element::from_atomic_number(z) {
+                let s = e.symbol().as_bytes();
+                if let (Some(&a), true) = (s.first(), s.len() <= 2) {
+                    if let Some(i) = slot(a, s.get(1).copied()) {
+                        t[i] = Some(e);
+                    }
+                }
+            }
+        }
+        for c in [b'D', b'T'] {
+            if let Some(i) = slot(c, None) {
+                t[i] = Some(Element::H);
+            }
+        }
+        t
+    });
+    slot(tok[0], tok.get(1).copied()).and_then(|i| table[i])
 }
 
 /// Options that affect reading.

@@ -30,6 +30,63 @@ pub fn hla(p: &HlaCoefficients, phi: f64, terms: &[HlaTerm]) -> f64 {
     j
 }
 
+/// The HLA equation from cos φ and sin φ, with each substituent's phase
+/// a = P6 |Δχ| given as (Δχ, ξ, cos a, sin a): the same value as [`hla`], using
+/// cos(ξφ + a) = cos φ cos a − ξ sin φ sin a, so that no trigonometric
+/// function is called per conformer.
+#[inline]
+pub fn hla_sin_cos(
+    p: &HlaCoefficients,
+    cos_phi: f64,
+    sin_phi: f64,
+    terms: &[(f64, f64, f64, f64)],
+) -> f64 {
+    let c = cos_phi;
+    let mut j = p.p1 * c * c + p.p2 * c + p.p3;
+    for &(dchi, xi, ca, sa) in terms {
+        let t = c * ca - xi * sin_phi * sa;
+        j += dchi * (p.p4 + p.p5 * t * t);
+    }
+    j
+}
+
+/// Evaluates a one-angle form from cos x and sin x (no trigonometric calls
+/// except for the phase offset of [`Form::Cos2`], which is a constant).
+/// HLA here has no substituent terms; Omega uses the H6R series.
+#[inline]
+pub fn single_sin_cos(form: &Form, cs: f64, sn: f64) -> f64 {
+    match form {
+        Form::Hla(p) => hla_sin_cos(p, cs, sn, &[]),
+        Form::Cos2 {
+            a,
+            b,
+            c,
+            offset_rad,
+        } => {
+            let t = if *offset_rad == 0.0 {
+                cs
+            } else {
+                cs * offset_rad.cos() - sn * offset_rad.sin()
+            };
+            a * t * t + b * t + c
+        }
+        Form::Piecewise { a0, a180, s, c } => {
+            let a = if cs >= 0.0 { a0 } else { a180 };
+            a * cs * cs + s * sn * sn + c
+        }
+        Form::Fourier(k) => fourier_sin_cos(k, cs, sn),
+        Form::Omega { h6r, .. } => fourier_sin_cos(h6r, cs, sn),
+    }
+}
+
+/// [`fourier`] from cos x and sin x.
+#[inline]
+pub fn fourier_sin_cos(c: &[f64; 5], c1: f64, s1: f64) -> f64 {
+    let c2 = 2.0 * c1 * c1 - 1.0;
+    let s2 = 2.0 * s1 * c1;
+    c[0] + c[1] * c1 + c[2] * s1 + c[3] * c2 + c[4] * s2
+}
+
 /// Five-term Fourier series c0 + c1 cos x + s1 sin x + c2 cos 2x + s2 sin 2x.
 #[inline]
 pub fn fourier(c: &[f64; 5], x: f64) -> f64 {
@@ -136,6 +193,57 @@ mod tests {
             let phi = deg.to_radians();
             let c = phi.cos();
             assert_abs_diff_eq!(hla(&p, phi, &[]), 13.70 * c * c - 0.73 * c, epsilon = 1e-12);
+        }
+    }
+
+    #[test]
+    fn sin_cos_paths_match_trig_paths() {
+        let p = hla_beta();
+        let terms = [
+            HlaTerm { dchi: 1.3, xi: 1.0 },
+            HlaTerm {
+                dchi: 0.4,
+                xi: -1.0,
+            },
+        ];
+        let sc: Vec<(f64, f64, f64, f64)> = terms
+            .iter()
+            .map(|t| {
+                let a = p.p6_rad * t.dchi.abs();
+                (t.dchi, t.xi, a.cos(), a.sin())
+            })
+            .collect();
+        let forms = [
+            Form::Hla(p),
+            Form::Cos2 {
+                a: 7.09,
+                b: -1.42,
+                c: 1.55,
+                offset_rad: 0.3,
+            },
+            Form::Piecewise {
+                a0: 6.6,
+                a180: 11.6,
+                s: 2.6,
+                c: 0.0,
+            },
+            Form::Fourier([7.0, -1.0, 0.2, 5.0, 0.1]),
+        ];
+        for deg in (-180..=180).step_by(15) {
+            let x = (deg as f64).to_radians();
+            let (sn, cs) = x.sin_cos();
+            assert_abs_diff_eq!(
+                hla(&p, x, &terms),
+                hla_sin_cos(&p, cs, sn, &sc),
+                epsilon = 1e-12
+            );
+            for f in &forms {
+                assert_abs_diff_eq!(
+                    single_angle(f, x, &[]),
+                    single_sin_cos(f, cs, sn),
+                    epsilon = 1e-12
+                );
+            }
         }
     }
 

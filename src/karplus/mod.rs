@@ -117,6 +117,8 @@ pub struct Hydroxymethyl {
     pub o5: usize,
     /// Ring carbon C5.
     pub c5: usize,
+    /// The ring carbon C4 on C5.
+    pub c4: usize,
     /// Exocyclic carbon C6.
     pub c6: usize,
     /// Hydroxyl (or ether) oxygen O6.
@@ -130,7 +132,7 @@ pub struct Hydroxymethyl {
 /// Recognises the hexopyranose C5–C6 exocyclic pattern for the pair x–y: one
 /// carbon (C6) with two H and one O (O6) and no other neighbour but the other
 /// carbon (C5), which lies in a six-membered ring together with a ring oxygen
-/// O5 bonded to it. Rings come from `top.rings`, or are searched for when the
+/// O5 bonded to it, and to a ring carbon C4. Rings come from `top.rings`, or are searched for when the
 /// topology lists none.
 pub fn recognise_hydroxymethyl(pair: &VicinalPair, top: &Topology) -> Option<Hydroxymethyl> {
     let el = |i: usize| top.atoms.get(i).map(|a| a.element);
@@ -160,10 +162,14 @@ pub fn recognise_hydroxymethyl(pair: &VicinalPair, top: &Topology) -> Option<Hyd
             .iter()
             .copied()
             .find(|&j| j != c6 && el(j) == Some(Element::O) && in_six_ring(top, c5, j));
-        if let Some(o5) = o5 {
+        let c4 = top
+            .heavy_neighbors(c5)
+            .find(|&j| j != c6 && Some(j) != o5 && el(j) == Some(Element::C));
+        if let (Some(o5), Some(c4)) = (o5, c4) {
             return Some(Hydroxymethyl {
                 o5,
                 c5,
+                c4,
                 c6,
                 o6: os[0],
                 h6,
@@ -210,6 +216,41 @@ fn in_six_ring(top: &Topology, a: usize, b: usize) -> bool {
     dfs(top, b, a, 5, &mut path)
 }
 
+/// The dihedral τ(a, b, c, d) (IUPAC sign, as [`crate::geometry::dihedral`])
+/// as (y, x) with τ = atan2(y, x), cos τ = x/r, sin τ = y/r, r = √(x² + y²) > 0;
+/// `None` where the angle is undefined.
+#[inline]
+fn dihedral_xy(a: &Vec3, b: &Vec3, c: &Vec3, d: &Vec3) -> Option<(f64, f64, f64)> {
+    let b1 = b - a;
+    let b2 = c - b;
+    let b3 = d - c;
+    let n1 = b1.cross(&b2);
+    let n2 = b2.cross(&b3);
+    let b2n2 = b2.norm_squared();
+    const EPS: f64 = 1e-8; // as geometry::dihedral
+    if b2n2 == 0.0
+        || n1.norm_squared() <= EPS * b1.norm_squared() * b2n2
+        || n2.norm_squared() <= EPS * b3.norm_squared() * b2n2
+    {
+        return None;
+    }
+    let y = b1.dot(&n2) * b2n2.sqrt();
+    let x = n1.dot(&n2);
+    let r = (x * x + y * y).sqrt();
+    if !(r > 0.0 && r.is_finite()) {
+        return None;
+    }
+    Some((y, x, r))
+}
+
+/// True if the C5 of a hexopyranose has the D-series configuration (R):
+/// (O5 − C5) × (C4 − C5) · (C6 − C5) < 0, as for the RDKit-built methyl
+/// α-D-glucopyranoside in tests/reference/hydroxymethyl_prochirality.txt.
+#[inline]
+pub fn is_d_series(o5: &Vec3, c5: &Vec3, c4: &Vec3, c6: &Vec3) -> bool {
+    (o5 - c5).cross(&(c4 - c5)).dot(&(c6 - c5)) < 0.0
+}
+
 /// Maximum number of HLA substituent terms (two carbons × two non-H
 /// substituents besides the C–C partner and the coupled H).
 const MAX_TERMS: usize = 6;
@@ -220,6 +261,9 @@ struct PreparedSub {
     /// True when the substituent sits on `x` (the carbon of `h1`).
     on_x: bool,
     dchi: f64,
+    /// cos and sin of the phase P6 |Δχ|.
+    cos_a: f64,
+    sin_a: f64,
 }
 
 #[derive(Debug, Clone, PartialEq)]
@@ -472,6 +516,8 @@ impl PreparedPair {
                     atom: 0,
                     on_x: true,
                     dchi: 0.0,
+                    cos_a: 1.0,
+                    sin_a: 0.0,
                 }; MAX_TERMS];
                 let mut n = 0;
                 for (on_x, list) in [(true, &pair.subs_x), (false, &pair.subs_y)] {
@@ -480,10 +526,13 @@ impl PreparedPair {
                         for &b in &s.beta {
                             d -= p.p7 * chi(b, &mut warn);
                         }
+                        let a = p.p6_rad * d.abs();
                         subs[n] = PreparedSub {
                             atom: s.atom,
                             on_x,
                             dchi: d,
+                            cos_a: a.cos(),
+                            sin_a: a.sin(),
                         };
                         n += 1;
                     }
@@ -502,7 +551,7 @@ impl PreparedPair {
             f => Kernel::Single(f),
         };
         if let Kernel::Omega { hm, .. } = &kernel {
-            max_index = max_index.max(hm.o5).max(hm.o6).max(hm.h6_other);
+            max_index = max_index.max(hm.o5).max(hm.o6).max(hm.h6_other).max(hm.c4);
         }
         Ok(Ok(PreparedPair {
             h1: pair.h1,
@@ -518,11 +567,24 @@ impl PreparedPair {
     }
 
     /// The dihedral φ = τ(h1, x, y, h2) in radians and 3J in Hz for one
-    /// conformer. Costs a few dihedral/cross products; no allocation. Errors
-    /// ([`Error::Model`]) when `coords` is too short or the dihedral is undefined
-    /// (collinear atoms), or J comes out non-finite.
+    /// conformer. Costs one dihedral, a cross and a dot product per HLA
+    /// substituent, no trigonometric call but one atan2 for φ; no allocation.
+    /// Errors ([`Error::Model`]) when `coords` is too short, the dihedral is
+    /// undefined (collinear atoms), or J comes out non-finite.
     #[inline]
     pub fn evaluate(&self, coords: &[Vec3]) -> Result<(f64, f64)> {
+        let (y, x, j) = self.eval_xy(coords)?;
+        Ok((y.atan2(x), j))
+    }
+
+    /// 3J in Hz only, for averaging loops that do not report φ (saves the atan2).
+    #[inline]
+    pub fn evaluate_j(&self, coords: &[Vec3]) -> Result<f64> {
+        self.eval_xy(coords).map(|t| t.2)
+    }
+
+    #[inline]
+    fn eval_xy(&self, coords: &[Vec3]) -> Result<(f64, f64, f64)> {
         if coords.len() <= self.max_index {
             return Err(self.fail("coordinates do not cover every atom of the fragment"));
         }
@@ -532,11 +594,12 @@ impl PreparedPair {
             &coords[self.y],
             &coords[self.h2],
         );
-        let phi = dihedral(h1, x, y, h2)
+        let (dy, dx, r) = dihedral_xy(h1, x, y, h2)
             .ok_or_else(|| self.fail("H–X–Y–H dihedral undefined (collinear atoms)"))?;
+        let (cos_phi, sin_phi) = (dx / r, dy / r);
         let j = match &self.kernel {
             Kernel::Hla { p, subs, n } => {
-                let mut terms = [HlaTerm { dchi: 0.0, xi: 1.0 }; MAX_TERMS];
+                let mut terms = [(0.0, 1.0, 1.0, 0.0); MAX_TERMS];
                 for (t, s) in terms.iter_mut().zip(&subs[..*n]) {
                     let sp = &coords[s.atom];
                     let xi = if s.on_x {
@@ -544,29 +607,32 @@ impl PreparedPair {
                     } else {
                         xi_sign(h2, y, sp, x)
                     };
-                    *t = HlaTerm { dchi: s.dchi, xi };
+                    *t = (s.dchi, xi, s.cos_a, s.sin_a);
                 }
-                hla(p, phi, &terms[..*n])
+                equations::hla_sin_cos(p, cos_phi, sin_phi, &terms[..*n])
             }
-            Kernel::Single(f) => equations::single_angle(f, phi, &[]),
+            Kernel::Single(f) => equations::single_sin_cos(f, cos_phi, sin_phi),
             Kernel::Omega { form, hm } => {
+                let c5 = &coords[hm.c5];
                 let c6 = &coords[hm.c6];
-                let omega = dihedral(&coords[hm.o5], &coords[hm.c5], c6, &coords[hm.o6])
+                let omega = dihedral(&coords[hm.o5], c5, c6, &coords[hm.o6])
                     .ok_or_else(|| self.fail("O5–C5–C6–O6 dihedral undefined (collinear atoms)"))?;
-                let pro_r = is_pro_r(
-                    c6,
-                    &coords[hm.o6],
-                    &coords[hm.c5],
-                    &coords[hm.h6],
-                    &coords[hm.h6_other],
-                );
-                equations::omega(form, omega, pro_r).unwrap_or(f64::NAN)
+                let pro_r = is_pro_r(c6, &coords[hm.o6], c5, &coords[hm.h6], &coords[hm.h6_other]);
+                // The equations are for D-hexopyranoses (C5 (R): O5 > C4 > C6 > H5).
+                // An L sugar is evaluated as its mirror image: ω → −ω, and the
+                // mirrored H6 swaps its pro-R/pro-S label, so J is mirror-invariant.
+                if is_d_series(&coords[hm.o5], c5, &coords[hm.c4], c6) {
+                    equations::omega(form, omega, pro_r)
+                } else {
+                    equations::omega(form, -omega, !pro_r)
+                }
+                .unwrap_or(f64::NAN)
             }
         };
         if !j.is_finite() {
             return Err(self.fail("coupling is not a finite number"));
         }
-        Ok((phi, j))
+        Ok((dy, dx, j))
     }
 
     /// For a hexopyranose H5–H6 pair under an ω model: whether the H6 of this

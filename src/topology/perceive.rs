@@ -146,21 +146,21 @@ pub fn check_frame(top: &Topology, frame: &Frame, conformer: usize) -> Result<()
     FrameChecker::new(top).check(frame, conformer)
 }
 
-/// Reusable per-ensemble checker: holds the topology's radii and the cell
+/// Reusable per-ensemble checker: holds the topology, its radii and the cell
 /// grid's buffers, so that checking a frame allocates nothing once warm.
 #[derive(Debug, Clone)]
-pub struct FrameChecker<'a> {
-    top: &'a Topology,
+pub struct FrameChecker {
+    top: Topology,
     radii: Vec<f64>,
     grid: GridScan,
     sorted_bonds: Vec<(usize, usize, BondOrder)>,
 }
 
-impl<'a> FrameChecker<'a> {
-    /// A checker for frames of the molecule `top`.
-    pub fn new(top: &'a Topology) -> Self {
+impl FrameChecker {
+    /// A checker for frames of the molecule `top` (keeps its own copy).
+    pub fn new(top: &Topology) -> Self {
         FrameChecker {
-            top,
+            top: top.clone(),
             radii: top
                 .atoms
                 .iter()
@@ -179,7 +179,7 @@ impl<'a> FrameChecker<'a> {
 
     /// Checks atom count, elements and finite coordinates only.
     pub fn check_atoms(&self, frame: &Frame, conformer: usize) -> Result<()> {
-        let top = self.top;
+        let top = &self.top;
         if frame.len() != top.len() || frame.coords.len() != top.len() {
             return Err(conformer_err(
                 frame,
@@ -209,7 +209,7 @@ impl<'a> FrameChecker<'a> {
     /// Checks bonding only (and duplicate atoms); assumes
     /// [`check_atoms`](Self::check_atoms) passed.
     pub fn check_bonds(&mut self, frame: &Frame, conformer: usize) -> Result<()> {
-        let top = self.top;
+        let top = &self.top;
         let coords = &frame.coords;
         match top.bond_source {
             BondSource::Distance => {
@@ -282,7 +282,7 @@ impl<'a> FrameChecker<'a> {
     }
 
     fn compare_file_bonds(&mut self, frame: &Frame, conformer: usize) -> Result<()> {
-        let top = self.top;
+        let top = &self.top;
         let same_in_order = frame.bonds.len() == top.bonds.len()
             && frame
                 .bonds

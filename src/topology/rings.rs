@@ -548,3 +548,33 @@ mod tests {
         assert_eq!(sizes(&sssr(&g)), vec![501, 501]);
     }
 }
+
+#[cfg(test)]
+mod grid_tests {
+    use super::*;
+
+    #[test]
+    fn square_lattice_at_the_horton_limit() {
+        // 20×20 lattice: 400 atoms, 760 bonds, 361 four-rings.
+        let w = 20;
+        let mut g = vec![Vec::new(); w * w];
+        for i in 0..w {
+            for j in 0..w {
+                let k = i * w + j;
+                if j + 1 < w {
+                    g[k].push(k + 1);
+                    g[k + 1].push(k);
+                }
+                if i + 1 < w {
+                    g[k].push(k + w);
+                    g[k + w].push(k);
+                }
+            }
+        }
+        let t = std::time::Instant::now();
+        let r = sssr(&g);
+        eprintln!("20x20 lattice SSSR: {:?}", t.elapsed());
+        assert_eq!(r.len(), 361);
+        assert!(r.iter().all(|x| x.len() == 4));
+    }
+}

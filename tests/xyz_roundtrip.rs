@@ -1,0 +1,112 @@
+//! Property tests of the XYZ writer/reader pair and of the byte float parser.
+
+use std::io::{BufRead, Cursor};
+use std::path::PathBuf;
+
+use proptest::prelude::*;
+use vicinal::elements::Element;
+use vicinal::geometry::Vec3;
+use vicinal::io::number::parse_f64;
+use vicinal::io::xyz::{write_frame, XyzReader};
+use vicinal::io::{Frame, FrameReader, ReadOptions};
+
+fn finite_f64() -> impl Strategy<Value = f64> {
+    prop_oneof![
+        prop::num::f64::NORMAL | prop::num::f64::SUBNORMAL | prop::num::f64::ZERO,
+        -1000.0..1000.0f64,
+        (-99_999_999i64..99_999_999).prop_map(|m| m as f64 / 1e6),
+    ]
+}
+
+fn element() -> impl Strategy<Value = Element> {
+    (1u8..=54).prop_filter_map("listed element", Element::from_atomic_number)
+}
+
+fn frame() -> impl Strategy<Value = Frame> {
+    (
+        prop::collection::vec((element(), finite_f64(), finite_f64(), finite_f64()), 1..25),
+        "[ -~]{0,40}",
+    )
+        .prop_map(|(atoms, title)| Frame {
+            title: title.trim().to_string(),
+            elements: atoms.iter().map(|a| a.0).collect(),
+            coords: atoms.iter().map(|a| Vec3::new(a.1, a.2, a.3)).collect(),
+            ..Frame::default()
+        })
+}
+
+/// Decimal strings of the shapes conformer files contain, and some they should not.
+fn decimal_string() -> impl Strategy<Value = String> {
+    (
+        prop_oneof![Just(""), Just("-"), Just("+")],
+        "[0-9]{0,20}",
+        prop::option::of("[0-9]{0,20}"),
+        prop::option::of((
+            prop_oneof![Just("e"), Just("E")],
+            prop_oneof![Just(""), Just("-"), Just("+")],
+            0u32..400,
+        )),
+    )
+        .prop_map(|(sign, int, frac, exp)| {
+            let mut s = format!("{sign}{int}");
+            if let Some(f) = frac {
+                s.push('.');
+                s.push_str(&f);
+            }
+            if let Some((e, es, v)) = exp {
+                s.push_str(&format!("{e}{es}{v}"));
+            }
+            s
+        })
+}
+
+fn same_as_std(s: &str) -> Result<(), TestCaseError> {
+    let want = s.parse::<f64>().ok();
+    let got = parse_f64(s.as_bytes());
+    match (want, got) {
+        (Some(a), Some(b)) => prop_assert_eq!(a.to_bits(), b.to_bits(), "{}", s),
+        (None, None) => {}
+        _ => prop_assert!(false, "{}: std {:?}, ours {:?}", s, want, got),
+    }
+    Ok(())
+}
+
+proptest! {
+    #![proptest_config(ProptestConfig::with_cases(2000))]
+
+    #[test]
+    fn float_strings_parse_like_std(s in decimal_string()) {
+        same_as_std(&s)?;
+    }
+
+    #[test]
+    fn displayed_floats_parse_back_exactly(v in finite_f64()) {
+        same_as_std(&v.to_string())?;
+        same_as_std(&format!("{v:e}"))?;
+        same_as_std(&format!("{v:.6}"))?;
+        same_as_std(&format!("{v:.17e}"))?;
+    }
+
+    #[test]
+    fn written_frames_read_back_identically(frames in prop::collection::vec(frame(), 1..4)) {
+        let mut text = Vec::new();
+        for f in &frames {
+            write_frame(&mut text, f).unwrap();
+        }
+        let input: Box<dyn BufRead> = Box::new(Cursor::new(text));
+        let mut r = XyzReader::new(input, PathBuf::from("<prop>"), ReadOptions::default());
+        let mut back = Frame::default();
+        for f in &frames {
+            prop_assert!(r.read_frame(&mut back).unwrap());
+            prop_assert_eq!(&back.elements, &f.elements);
+            prop_assert_eq!(back.coords.len(), f.coords.len());
+            for (p, q) in back.coords.iter().zip(&f.coords) {
+                for k in 0..3 {
+                    prop_assert_eq!(p[k].to_bits(), q[k].to_bits());
+                }
+            }
+            prop_assert_eq!(&back.title, &f.title);
+        }
+        prop_assert!(!r.read_frame(&mut back).unwrap());
+    }
+}
