@@ -39,7 +39,7 @@ fn slow(tok: &[u8]) -> Option<f64> {
 /// form feed, vertical tab) or at the end of `s`. Returns the value and the
 /// number of bytes it took; `None` if the field there is not a number. The
 /// value is exactly what `str::parse::<f64>` gives for the field.
-#[inline]
+#[inline(always)]
 pub(crate) fn parse_f64_field(s: &[u8]) -> Option<(f64, usize)> {
     if let Some((v, len)) = fast_prefix(s) {
         if s.get(len).map_or(true, |&b| is_blank(b)) {
@@ -97,7 +97,7 @@ fn fast(tok: &[u8]) -> Option<f64> {
 /// the value and its length in bytes, or `None` if the fast path does not
 /// apply (more than 19 digits, significand above 2^53, power of ten beyond
 /// 10^±22, no digits).
-#[inline]
+#[inline(always)]
 fn fast_prefix(s: &[u8]) -> Option<(f64, usize)> {
     let n = s.len();
     let mut i = 0;
