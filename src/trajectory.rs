@@ -96,6 +96,11 @@ pub struct TrajectoryOptions {
     pub timeseries_csv: Option<PathBuf>,
     /// Most running-average checkpoints kept (for the plot); 0 for none.
     pub checkpoints: usize,
+    /// Check the bonding of every used frame against the first (broken or
+    /// new bonds are errors). With `false` only the atoms are checked (count,
+    /// elements, finite coordinates), for trajectories with close contacts
+    /// that the distance rule would read as bonds.
+    pub check_bonding: bool,
 }
 
 impl Default for TrajectoryOptions {
@@ -112,6 +117,7 @@ impl Default for TrajectoryOptions {
             choice: ModelChoice::default(),
             timeseries_csv: None,
             checkpoints: DEFAULT_CHECKPOINTS,
+            check_bonding: true,
         }
     }
 }
@@ -890,7 +896,7 @@ impl<'t> Analysis<'t> {
     fn add(&mut self, frame: &Frame, index: usize, used: u64) -> Result<()> {
         let c = &frame.coords;
         for (j, p) in self.j_pair.iter_mut().zip(&self.pairs) {
-            *j = p.evaluate(c).map_err(|e| frame_error(frame, index, e))?.1;
+            *j = p.evaluate_j(c).map_err(|e| frame_error(frame, index, e))?;
         }
         for ((g, jg), avg) in self
             .groups
@@ -1141,7 +1147,11 @@ pub fn analyse(
         let selected = index >= opts.first && (index - opts.first) % stride == 0;
         if selected {
             if !self_checked && !matches!(source, TrajectorySource::Files(_) if index == 0) {
-                checker.check(&frame, index + 1)?;
+                if opts.check_bonding {
+                    checker.check(&frame, index + 1)?;
+                } else {
+                    checker.check_atoms(&frame, index + 1)?;
+                }
             }
             used += 1;
             an.add(&frame, index, used)?;
