@@ -30,6 +30,27 @@ pub enum FragmentKind {
 }
 
 impl FragmentKind {
+    /// Every kind, in the order used in documentation.
+    pub const ALL: [FragmentKind; 6] = [
+        FragmentKind::HCsp3Csp3H,
+        FragmentKind::HCsp3Csp2H,
+        FragmentKind::HCsp2Csp2H,
+        FragmentKind::HNCH,
+        FragmentKind::HOCH,
+        FragmentKind::Other,
+    ];
+
+    /// The kind whose [`label`](Self::label) is `s` (case-insensitive; also
+    /// accepts `HCCH` for H–C(sp3)–C(sp3)–H).
+    pub fn from_label(s: &str) -> Option<FragmentKind> {
+        if s.eq_ignore_ascii_case("HCCH") {
+            return Some(FragmentKind::HCsp3Csp3H);
+        }
+        FragmentKind::ALL
+            .into_iter()
+            .find(|k| k.label().eq_ignore_ascii_case(s))
+    }
+
     /// A short label for tables and CSV, stable across versions.
     pub fn label(self) -> &'static str {
         match self {

@@ -21,6 +21,7 @@ pub mod fragments;
 pub mod geometry;
 pub mod io;
 pub mod karplus;
+pub mod observed;
 pub mod output;
 pub mod plot;
 pub mod pucker;

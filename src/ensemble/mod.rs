@@ -2,5 +2,6 @@
 //! averaging couplings over them.
 
 pub mod average;
+pub mod predict;
 pub mod source;
 pub mod weights;

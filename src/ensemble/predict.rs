@@ -19,7 +19,7 @@ use crate::error::{Error, Result};
 use crate::fragments::{self, FragmentKind, Fragments};
 use crate::io::Frame;
 use crate::karplus::{self, ModelChoice, NotEvaluated, ParamLibrary, PreparedSet};
-use crate::pucker::{Pucker, Position};
+use crate::pucker::{Position, Pucker};
 use crate::topology::Topology;
 
 /// How conformers are weighted.
@@ -291,15 +291,16 @@ pub fn predict(mut source: EnsembleSource, opts: &PredictOptions) -> Result<Pred
         .ok_or_else(|| Error::Usage("the input files hold no conformers".into()))?;
     let acc = acc.ok_or_else(|| Error::Usage("the input files hold no conformers".into()))?;
 
-    let mut warnings: Vec<String> = acc.prepared.warnings.iter().map(|w| w.to_string()).collect();
+    let mut warnings: Vec<String> = acc
+        .prepared
+        .warnings
+        .iter()
+        .map(|w| w.to_string())
+        .collect();
     let weighting = apply_weights(&mut conformers, &opts.weighting)?;
     let p: Vec<f64> = conformers.iter().map(|c| c.population).collect();
-    let n_eff = weights::effective_number(&p);
-    if let Some((i, &pmax)) = p
-        .iter()
-        .enumerate()
-        .max_by(|a, b| a.1.total_cmp(b.1))
-    {
+    let n_eff = weights::effective_count(&p);
+    if let Some((i, &pmax)) = p.iter().enumerate().max_by(|a, b| a.1.total_cmp(b.1)) {
         if pmax > 0.99 && p.len() > 1 {
             warnings.push(format!(
                 "conformer {} holds {:.1} % of the population: the averages are essentially that conformer's couplings",
@@ -362,7 +363,7 @@ fn apply_weights(conformers: &mut [ConformerInfo], w: &Weighting) -> Result<Stri
                     p.len()
                 )));
             }
-            let q = weights::normalise_user(p)?;
+            let q = weights::user(p)?;
             for (c, v) in conformers.iter_mut().zip(q) {
                 c.population = v;
             }
@@ -438,7 +439,10 @@ fn group_couplings(acc: &Accumulator, p: &[f64]) -> Result<Vec<Coupling>> {
     }
     let mut groups: BTreeMap<(usize, usize, Side, Side), Vec<usize>> = BTreeMap::new();
     for (k, pp) in acc.prepared.pairs.iter().enumerate() {
-        let (r1, r2) = rotor_of.get(&(pp.h1, pp.h2)).copied().unwrap_or((None, None));
+        let (r1, r2) = rotor_of
+            .get(&(pp.h1, pp.h2))
+            .copied()
+            .unwrap_or((None, None));
         let s1 = r1.map_or(Side::Proton(pp.h1), Side::Rotor);
         let s2 = r2.map_or(Side::Proton(pp.h2), Side::Rotor);
         groups.entry((pp.x, pp.y, s1, s2)).or_default().push(k);
@@ -466,9 +470,8 @@ fn group_couplings(acc: &Accumulator, p: &[f64]) -> Result<Vec<Coupling>> {
             j_hz.push(s / m);
             dihedral_rad.push(d);
         }
-        let spread = spread(&j_hz, p).ok_or_else(|| {
-            Error::Usage("no conformer carries any population".to_string())
-        })?;
+        let spread = spread(&j_hz, p)
+            .ok_or_else(|| Error::Usage("no conformer carries any population".to_string()))?;
         out.push(Coupling {
             side1,
             side2,

@@ -42,7 +42,7 @@ fn slow(tok: &[u8]) -> Option<f64> {
 #[inline(always)]
 pub(crate) fn parse_f64_field(s: &[u8]) -> Option<(f64, usize)> {
     if let Some((v, len)) = fast_prefix(s) {
-        if s.get(len).map_or(true, |&b| is_blank(b)) {
+        if s.get(len).is_none_or(|&b| is_blank(b)) {
             return Some((v, len));
         }
     }

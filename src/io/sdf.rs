@@ -206,6 +206,26 @@ impl FrameReader for SdfReader {
                 }
             }
         }
+        if all_blank {
+            // Four blank lines: only blank lines to the end of the file are
+            // acceptable here (no molfile has a blank counts line).
+            while let Some((no, line)) = self.lines.next_line()? {
+                if !trim(line).is_empty() {
+                    return Err(Error::parse(
+                        &self.path,
+                        no,
+                        format!(
+                            "expected a molfile header, found blank lines and then '{}'",
+                            show(line)
+                        ),
+                    ));
+                }
+            }
+            if self.records == 0 {
+                return Err(Error::file(&self.path, "empty file: no conformers"));
+            }
+            return Ok(false);
+        }
         if frame.path != self.path {
             frame.path.clone_from(&self.path);
         }
@@ -881,6 +901,13 @@ $$$$
         let f = read_str(text, Format::Sdf, &opts(None)).unwrap();
         assert_eq!(f.len(), 1);
         assert_eq!(f[0].charges, vec![1]);
+        let many_blank = format!("{text}$$$$\n\n\n\n\n\n");
+        assert_eq!(
+            read_str(&many_blank, Format::Sdf, &opts(None))
+                .unwrap()
+                .len(),
+            1
+        );
         assert_eq!(f[0].energy, None);
     }
 

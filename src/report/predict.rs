@@ -81,7 +81,11 @@ fn formula(top: &Topology) -> String {
 /// Writes the prediction as tables for people. `per_conformer` forces the
 /// per-conformer block on (`Some(true)`) or off; `None` shows it for up to
 /// [`PER_CONFORMER_DEFAULT_MAX`] conformers.
-pub fn write_table(w: &mut dyn Write, pr: &Prediction, per_conformer: Option<bool>) -> io::Result<()> {
+pub fn write_table(
+    w: &mut dyn Write,
+    pr: &Prediction,
+    per_conformer: Option<bool>,
+) -> io::Result<()> {
     let top = &pr.topology;
     let n = pr.conformers.len();
     let files: Vec<String> = pr.files.iter().map(|f| f.display().to_string()).collect();
@@ -108,7 +112,10 @@ pub fn write_table(w: &mut dyn Write, pr: &Prediction, per_conformer: Option<boo
         ("population".into(), Align::Right),
     ];
     for (k, r) in pr.rings.iter().enumerate() {
-        cols.push((format!("ring {} ({}-membered)", k + 1, r.atoms.len()), Align::Left));
+        cols.push((
+            format!("ring {} ({}-membered)", k + 1, r.atoms.len()),
+            Align::Left,
+        ));
     }
     let cols_ref: Vec<(&str, Align)> = cols.iter().map(|(s, a)| (s.as_str(), *a)).collect();
     let mut t = Table::new(&cols_ref);
@@ -116,7 +123,9 @@ pub fn write_table(w: &mut dyn Write, pr: &Prediction, per_conformer: Option<boo
         let mut row = vec![
             c.index.to_string(),
             format!("{}:{}", c.file.display(), c.line),
-            c.energy.map(|e| format!("{e:.4}")).unwrap_or_else(|| "-".into()),
+            c.energy
+                .map(|e| format!("{e:.4}"))
+                .unwrap_or_else(|| "-".into()),
             c.relative_kcal_mol
                 .map(|e| format!("{e:.3}"))
                 .unwrap_or_else(|| "-".into()),
@@ -189,10 +198,7 @@ pub fn write_table(w: &mut dyn Write, pr: &Prediction, per_conformer: Option<boo
     let show = per_conformer.unwrap_or(n <= PER_CONFORMER_DEFAULT_MAX);
     writeln!(w)?;
     if show {
-        writeln!(
-            w,
-            "Per conformer: H-X-Y-H dihedral in degrees / 3J in Hz"
-        )?;
+        writeln!(w, "Per conformer: H-X-Y-H dihedral in degrees / 3J in Hz")?;
         for start in (0..n).step_by(CONFORMERS_PER_BLOCK) {
             let end = (start + CONFORMERS_PER_BLOCK).min(n);
             let mut cols: Vec<(String, Align)> = vec![("pair".into(), Align::Left)];
@@ -204,7 +210,11 @@ pub fn write_table(w: &mut dyn Write, pr: &Prediction, per_conformer: Option<boo
             for c in &pr.couplings {
                 let mut row = vec![pair_label(top, c)];
                 for k in start..end {
-                    row.push(format!("{} / {:.2}", fmt_dihedral(&c.dihedral_rad[k]), c.j_hz[k]));
+                    row.push(format!(
+                        "{} / {:.2}",
+                        fmt_dihedral(&c.dihedral_rad[k]),
+                        c.j_hz[k]
+                    ));
                 }
                 t.row(row);
             }
@@ -248,7 +258,10 @@ fn shape_cell(r: &RingSeries, i: usize) -> String {
             s.shape, s.q_angstrom, t, s.phi_deg
         ),
         None if s.q_angstrom > 0.0 => {
-            format!("{} (Q {:.2} A, phi {:.0})", s.shape, s.q_angstrom, s.phi_deg)
+            format!(
+                "{} (Q {:.2} A, phi {:.0})",
+                s.shape, s.q_angstrom, s.phi_deg
+            )
         }
         None => s.shape.clone(),
     }
@@ -298,7 +311,10 @@ fn write_positions(
     }
     t.write(w, 2)?;
     if shown < n && each {
-        writeln!(w, "  (labels of every conformer are in the CSV and JSON outputs)")?;
+        writeln!(
+            w,
+            "  (labels of every conformer are in the CSV and JSON outputs)"
+        )?;
     }
     Ok(())
 }
@@ -332,8 +348,18 @@ pub fn write_csv(w: &mut dyn Write, pr: &Prediction) -> io::Result<()> {
         header.push(format!("j_hz_{k}"));
     }
     wr.write_record(&header).map_err(io::Error::other)?;
-    let join = |a: &[usize]| a.iter().map(|i| (i + 1).to_string()).collect::<Vec<_>>().join(";");
-    let jn = |a: &[usize]| a.iter().map(|&i| atomref::name(top, i)).collect::<Vec<_>>().join(";");
+    let join = |a: &[usize]| {
+        a.iter()
+            .map(|i| (i + 1).to_string())
+            .collect::<Vec<_>>()
+            .join(";")
+    };
+    let jn = |a: &[usize]| {
+        a.iter()
+            .map(|&i| atomref::name(top, i))
+            .collect::<Vec<_>>()
+            .join(";")
+    };
     for c in &pr.couplings {
         let mut rec = vec![
             join(&c.side1),
