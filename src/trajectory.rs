@@ -964,7 +964,7 @@ impl<'t> Analysis<'t> {
                 .checkpoints
                 .points
                 .last()
-                .map_or(true, |p| p.frames != used)
+                .is_none_or(|p| p.frames != used)
             && used > 0
         {
             self.checkpoints.record(used, &self.averagers);
@@ -973,7 +973,7 @@ impl<'t> Analysis<'t> {
                 .checkpoints
                 .points
                 .last()
-                .map_or(true, |p| p.frames != used)
+                .is_none_or(|p| p.frames != used)
             {
                 self.checkpoints.record(used, &self.averagers);
             }
