@@ -30,5 +30,6 @@ pub mod report;
 pub mod states;
 pub mod timeseries;
 pub mod topology;
+pub mod trajectory;
 
 pub use error::{Error, Result};

@@ -446,6 +446,34 @@ pub struct BlockingAnalysis {
     pub effective_samples: f64,
 }
 
+/// Degrees of freedom whose χ² quantile is cached (a series of 2⁶⁴ values
+/// has at most 64 levels).
+const CACHED_DOF: usize = 64;
+
+/// The [`JONSSON_QUANTILE`] quantile of χ² with `dof` degrees of freedom,
+/// from a table computed once (the inverse CDF is iterative and the analysis
+/// may run at hundreds of checkpoints along a trajectory).
+fn chi2_quantile(dof: usize) -> Option<f64> {
+    static TABLE: std::sync::OnceLock<Vec<Option<f64>>> = std::sync::OnceLock::new();
+    let q = |k: usize| {
+        ChiSquared::new(k as f64)
+            .ok()
+            .map(|chi| chi.inverse_cdf(JONSSON_QUANTILE))
+    };
+    if dof == 0 {
+        return None;
+    }
+    if dof > CACHED_DOF {
+        return q(dof);
+    }
+    let table = TABLE.get_or_init(|| {
+        (0..=CACHED_DOF)
+            .map(|k| if k == 0 { None } else { q(k) })
+            .collect()
+    });
+    table.get(dof).copied().flatten()
+}
+
 fn analyze_levels(levels: &[Level], stats: &RunningStats) -> BlockingAnalysis {
     let count = stats.count();
     let mean = stats.mean().unwrap_or(0.0);
@@ -483,11 +511,8 @@ fn analyze_levels(levels: &[Level], stats: &RunningStats) -> BlockingAnalysis {
             m[j] = acc;
         }
         let found = (0..d).find(|&j| {
-            let dof = (d - j) as f64;
-            match ChiSquared::new(dof) {
-                Ok(chi) => m[j] < chi.inverse_cdf(JONSSON_QUANTILE),
-                Err(_) => false,
-            }
+            let dof = d - j;
+            chi2_quantile(dof).is_some_and(|q| m[j] < q)
         });
         match found {
             Some(j) if out[j].blocks >= MIN_BLOCKS => (j, Plateau::Found),

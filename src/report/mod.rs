@@ -3,6 +3,7 @@
 pub mod atoms;
 pub mod predict;
 pub mod table;
+pub mod trajectory;
 
 /// The caution printed with every prediction for people.
 pub const CAUTION: &str = "Caution: predicted couplings are model estimates. The Karplus-type equations \
