@@ -1,7 +1,10 @@
 //! Writes a synthetic molecular-dynamics-like multi-frame XYZ trajectory of
 //! hexan-2-ol (C6H14O, 21 atoms) for the benchmarks: the three backbone
 //! torsions C2–C3, C3–C4 and C4–C5 follow seeded random walks and every atom
-//! gets a small seeded thermal displacement (0.02 Å). The starting geometry is
+//! gets a small seeded thermal displacement (0.02 Å). A torsion step that
+//! would bring two atoms more than three bonds apart closer than 2.0 Å is
+//! rejected and redrawn, so no frame has a clash that bond checks would read
+//! as a new bond. The starting geometry is
 //! one RDKit 2026.09.1 ETKDG + MMFF94 conformer (random seed 7), pasted below.
 //! This is synthetic data for speed tests, not a simulation.
 //!
@@ -133,19 +136,59 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let torsions = [(1usize, 2usize), (2, 3), (3, 4)];
     let moving: Vec<Vec<usize>> = torsions.iter().map(|&(b, c)| side(b, c)).collect();
 
-    let mut rng = Rng(20261201);
-    let mut angle = [0.0f64; 3];
-    let mut w = BufWriter::with_capacity(1 << 20, File::create(path)?);
-    for f in 0..frames {
+    // Pairs more than three bonds apart, which must not clash.
+    let mut hops = vec![vec![usize::MAX; n]; n];
+    for (s0, row) in hops.iter_mut().enumerate() {
+        row[s0] = 0;
+        let mut queue = std::collections::VecDeque::from([s0]);
+        while let Some(a) = queue.pop_front() {
+            for &x in &nb[a] {
+                if row[x] == usize::MAX {
+                    row[x] = row[a] + 1;
+                    queue.push_back(x);
+                }
+            }
+        }
+    }
+    let far: Vec<(usize, usize)> = (0..n)
+        .flat_map(|i| (i + 1..n).map(move |j| (i, j)))
+        .filter(|&(i, j)| hops[i][j] > 3)
+        .collect();
+    let build = |angle: &[f64; 3]| -> Vec<P> {
         let mut xyz = base.clone();
         for (t, &(b, c)) in torsions.iter().enumerate() {
-            angle[t] += 0.15 * rng.normal();
             let o = xyz[b];
             let d = sub(xyz[c], o);
             let l = (d[0] * d[0] + d[1] * d[1] + d[2] * d[2]).sqrt();
             let k = [d[0] / l, d[1] / l, d[2] / l];
             for &a in &moving[t] {
                 xyz[a] = rotate(xyz[a], o, k, angle[t]);
+            }
+        }
+        xyz
+    };
+    let clashes = |xyz: &[P]| {
+        far.iter().any(|&(i, j)| {
+            let d = sub(xyz[i], xyz[j]);
+            d[0] * d[0] + d[1] * d[1] + d[2] * d[2] < 4.0
+        })
+    };
+
+    let mut rng = Rng(20261201);
+    let mut angle = [0.0f64; 3];
+    let mut w = BufWriter::with_capacity(1 << 20, File::create(path)?);
+    for f in 0..frames {
+        let mut xyz = build(&angle);
+        for _ in 0..100 {
+            let mut trial = angle;
+            for a in trial.iter_mut() {
+                *a += 0.15 * rng.normal();
+            }
+            let t = build(&trial);
+            if !clashes(&t) {
+                angle = trial;
+                xyz = t;
+                break;
             }
         }
         writeln!(w, "{n}")?;

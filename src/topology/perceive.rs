@@ -443,6 +443,10 @@ fn file_bonds(frame: &Frame) -> Result<Vec<Bond>> {
 /// keeps memory O(n) for sparse inputs (molecules far apart).
 const MAX_CELLS_PER_ATOM: usize = 8;
 
+/// Up to this many atoms, pair scans test every pair instead of a cell grid
+/// (the grid's set-up costs more than it saves for small molecules).
+const BRUTE_FORCE_MAX_ATOMS: usize = 48;
+
 /// A uniform cell grid over the coordinates, built by counting sort; reused
 /// between frames.
 #[derive(Debug, Clone, Default)]
@@ -467,6 +471,19 @@ impl GridScan {
         let rmax = radii.iter().copied().fold(0.0, f64::max);
         let reach = (2.0 * rmax + BOND_TOLERANCE_A).max(DUPLICATE_DISTANCE_A);
         let reach2 = reach * reach;
+        // For small molecules every pair is cheaper than building the grid.
+        if n <= BRUTE_FORCE_MAX_ATOMS {
+            for i in 0..n {
+                let ci = coords[i];
+                for (j, cj) in coords.iter().enumerate().skip(i + 1) {
+                    let d2 = (cj - ci).norm_squared();
+                    if d2 < reach2 {
+                        f(i, j, d2)?;
+                    }
+                }
+            }
+            return Ok(());
+        }
         let (mut lo, mut hi) = (coords[0], coords[0]);
         for c in coords {
             lo = lo.inf(c);
