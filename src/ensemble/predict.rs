@@ -135,6 +135,10 @@ pub struct Coupling {
     pub j_hz: Vec<f64>,
     /// Population-weighted statistics of `j_hz`.
     pub spread: Spread,
+    /// For a hexopyranose H5–H6 pair under an ω model: whether this H6 is the
+    /// pro-R proton (judged in conformer 1; CH2 protons keep their conformer-1
+    /// positions throughout, see [`super::relabel`]).
+    pub h6_pro_r: Option<bool>,
 }
 
 /// Everything `predict` reports.
@@ -173,6 +177,7 @@ struct Accumulator {
     pairing: ProtonPairing,
     scratch: Vec<crate::geometry::Vec3>,
     repaired: usize,
+    pro_r: Vec<Option<bool>>,
 }
 
 impl Accumulator {
@@ -202,6 +207,7 @@ impl Accumulator {
             pairing: ProtonPairing::new(top, &first.coords),
             scratch: Vec::new(),
             repaired: 0,
+            pro_r: Vec::new(),
         })
     }
 
@@ -231,6 +237,14 @@ impl Accumulator {
             },
             e => e,
         };
+        if self.pro_r.is_empty() {
+            self.pro_r = self
+                .prepared
+                .pairs
+                .iter()
+                .map(|p| p.h6_is_pro_r(c))
+                .collect();
+        }
         for (k, p) in self.prepared.pairs.iter().enumerate() {
             let (phi, j) = p.evaluate(c).map_err(at)?;
             self.phi[k].push(phi);
@@ -512,6 +526,7 @@ fn group_couplings(acc: &Accumulator, p: &[f64]) -> Result<Vec<Coupling>> {
             dihedral_rad,
             j_hz,
             spread,
+            h6_pro_r: acc.pro_r.get(members[0]).copied().flatten(),
         });
     }
     // Report in the order of the first proton, as the atom listing does.

@@ -15,6 +15,9 @@ use crate::topology::Topology;
 /// Conformers shown per block of the per-conformer table.
 const CONFORMERS_PER_BLOCK: usize = 8;
 
+/// Conformers listed in the table of a large ensemble (most populated first).
+const CONFORMERS_LISTED_LARGE: usize = 20;
+
 /// Above this many conformers the table omits the per-conformer block unless asked.
 pub const PER_CONFORMER_DEFAULT_MAX: usize = 40;
 
@@ -43,7 +46,12 @@ fn pair_label(top: &Topology, c: &Coupling) -> String {
             refs(top, s)
         }
     };
-    format!("{}-{}", side(&c.side1), side(&c.side2))
+    let tag = match c.h6_pro_r {
+        Some(true) => " [H6 pro-R]",
+        Some(false) => " [H6 pro-S]",
+        None => "",
+    };
+    format!("{}-{}{tag}", side(&c.side1), side(&c.side2))
 }
 
 fn fmt_dihedral(d: &[f64]) -> String {
@@ -103,7 +111,20 @@ pub fn write_table(
     )?;
     writeln!(w)?;
 
-    writeln!(w, "Conformers")?;
+    let show = per_conformer.unwrap_or(n <= PER_CONFORMER_DEFAULT_MAX);
+    // Large ensembles list their most populated conformers only.
+    let mut order: Vec<usize> = (0..n).collect();
+    if !show {
+        order.sort_by(|&a, &b| {
+            pr.conformers[b]
+                .population
+                .total_cmp(&pr.conformers[a].population)
+        });
+        order.truncate(CONFORMERS_LISTED_LARGE);
+        writeln!(w, "Conformers (the {} most populated of {n})", order.len())?;
+    } else {
+        writeln!(w, "Conformers")?;
+    }
     let mut cols: Vec<(String, Align)> = vec![
         ("#".into(), Align::Right),
         ("source".into(), Align::Left),
@@ -119,7 +140,8 @@ pub fn write_table(
     }
     let cols_ref: Vec<(&str, Align)> = cols.iter().map(|(s, a)| (s.as_str(), *a)).collect();
     let mut t = Table::new(&cols_ref);
-    for (i, c) in pr.conformers.iter().enumerate() {
+    for &i in &order {
+        let c = &pr.conformers[i];
         let mut row = vec![
             c.index.to_string(),
             format!("{}:{}", c.file.display(), c.line),
@@ -130,7 +152,7 @@ pub fn write_table(
                 .map(|e| format!("{e:.3}"))
                 .unwrap_or_else(|| "-".into()),
             if c.kept {
-                format!("{:.4}", c.population)
+                fmt_population(c.population)
             } else {
                 "dropped".into()
             },
@@ -141,15 +163,27 @@ pub fn write_table(
         t.row(row);
     }
     t.write(w, 2)?;
+    if order.len() < n {
+        let listed: f64 = order.iter().map(|&i| pr.conformers[i].population).sum();
+        writeln!(
+            w,
+            "  ... and {} more conformers holding {:.4} of the population (all are in --as csv/json, or with --each)",
+            n - order.len(),
+            (1.0 - listed).max(0.0)
+        )?;
+    }
     writeln!(w)?;
 
     writeln!(
         w,
         "Couplings 3J(H,H) in Hz: population-weighted mean, standard deviation and range over conformers"
     )?;
-    let mut t = Table::new(&[
-        ("pair", Align::Left),
-        ("names", Align::Left),
+    let has_names = top.atoms.iter().any(|a| a.name.is_some());
+    let mut cols = vec![("pair", Align::Left)];
+    if has_names {
+        cols.push(("names", Align::Left));
+    }
+    cols.extend([
         ("kind", Align::Left),
         ("model", Align::Left),
         ("mean Hz", Align::Right),
@@ -157,15 +191,14 @@ pub fn write_table(
         ("min Hz", Align::Right),
         ("max Hz", Align::Right),
     ]);
+    let mut t = Table::new(&cols);
     for c in &pr.couplings {
         let nm = [names(top, &c.side1), names(top, &c.side2)];
-        t.row(vec![
-            pair_label(top, c),
-            if nm.iter().all(|s| s.is_empty()) {
-                String::new()
-            } else {
-                nm.join("-")
-            },
+        let mut row = vec![pair_label(top, c)];
+        if has_names {
+            row.push(nm.join("-"));
+        }
+        row.extend([
             c.kind.label().to_string(),
             c.model.clone(),
             format!("{:.2}", c.spread.mean),
@@ -173,6 +206,7 @@ pub fn write_table(
             format!("{:.2}", c.spread.min),
             format!("{:.2}", c.spread.max),
         ]);
+        t.row(row);
     }
     t.write(w, 2)?;
     if pr.couplings.iter().any(|c| c.rotor_averaged) {
@@ -195,7 +229,6 @@ pub fn write_table(
         }
     }
 
-    let show = per_conformer.unwrap_or(n <= PER_CONFORMER_DEFAULT_MAX);
     writeln!(w)?;
     if show {
         writeln!(w, "Per conformer: H-X-Y-H dihedral in degrees / 3J in Hz")?;
@@ -248,6 +281,14 @@ pub fn write_table(
     }
     writeln!(w)?;
     writeln!(w, "{CAUTION}")
+}
+
+fn fmt_population(p: f64) -> String {
+    if p > 0.0 && p < 1e-4 {
+        format!("{p:.1e}")
+    } else {
+        format!("{p:.4}")
+    }
 }
 
 fn shape_cell(r: &RingSeries, i: usize) -> String {
@@ -335,6 +376,7 @@ pub fn write_csv(w: &mut dyn Write, pr: &Prediction) -> io::Result<()> {
         "kind",
         "model",
         "rotor_averaged",
+        "h6_prochirality",
         "j_mean_hz",
         "j_sd_hz",
         "j_min_hz",
@@ -371,6 +413,10 @@ pub fn write_csv(w: &mut dyn Write, pr: &Prediction) -> io::Result<()> {
             c.kind.label().to_string(),
             c.model.clone(),
             c.rotor_averaged.to_string(),
+            c.h6_pro_r
+                .map(|r| if r { "pro-R" } else { "pro-S" })
+                .unwrap_or("")
+                .to_string(),
             format!("{:.4}", c.spread.mean),
             format!("{:.4}", c.spread.sd),
             format!("{:.4}", c.spread.min),
@@ -402,6 +448,7 @@ struct JsonCoupling<'a> {
     model: &'a str,
     model_rms_hz: Option<f64>,
     rotor_averaged: bool,
+    h6_prochirality: Option<&'a str>,
     dihedral_deg: Vec<Vec<f64>>,
     j_hz: &'a [f64],
     j_mean_hz: f64,
@@ -458,6 +505,7 @@ pub fn write_json(w: &mut dyn Write, pr: &Prediction) -> io::Result<()> {
             model: &c.model,
             model_rms_hz: c.model_rms_hz,
             rotor_averaged: c.rotor_averaged,
+            h6_prochirality: c.h6_pro_r.map(|r| if r { "pro-R" } else { "pro-S" }),
             dihedral_deg: c
                 .dihedral_rad
                 .iter()
