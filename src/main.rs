@@ -11,6 +11,7 @@ mod cli;
 use cli::atoms::{run_atoms, AtomsArgs};
 use cli::models::{run_curve, run_models, CurveArgs, ModelsArgs};
 use cli::predict::{run_predict, PredictArgs};
+use cli::trajectory::{run_trajectory, TrajectoryArgs};
 
 /// Vicinal 3J(H,H) couplings from conformer ensembles: prediction with
 /// Karplus-type equations, Boltzmann averaging and population fitting.
@@ -31,6 +32,8 @@ enum Command {
     Models(ModelsArgs),
     /// Tabulate (CSV) and plot (SVG) J against the dihedral for one parameter set.
     Curve(CurveArgs),
+    /// Time-averaged couplings, their errors, and ring/rotamer states over an MD trajectory.
+    Trajectory(TrajectoryArgs),
 }
 
 fn main() -> ExitCode {
@@ -40,6 +43,7 @@ fn main() -> ExitCode {
         Command::Predict(a) => run_predict(a),
         Command::Models(a) => run_models(a),
         Command::Curve(a) => run_curve(a),
+        Command::Trajectory(a) => run_trajectory(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

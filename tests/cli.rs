@@ -387,3 +387,39 @@ fn no_hydrogens_is_refused() {
     let e = fails(&["atoms", f.to_str().unwrap()]);
     assert!(e.contains("hydrogens are needed"), "{e}");
 }
+
+/// The trajectory command on the MDTraj-written DCD fixture (tests/reference/make_dcd.py)
+/// with its PDB topology, and on the same frames as multi-model PDB, agree.
+#[test]
+fn trajectory_command_on_dcd_and_errors() {
+    let plot = tmp("traj.svg");
+    let json: serde_json::Value = serde_json::from_str(&ok(&[
+        "trajectory",
+        "tests/data/dcd/ethane_cell.dcd",
+        "--topology",
+        "tests/data/dcd/ethane.pdb",
+        "--as",
+        "json",
+        "--plot",
+        plot.to_str().unwrap(),
+        "--quiet",
+    ]))
+    .unwrap();
+    assert_eq!(json["frames_used"], 6);
+    assert!(std::fs::read_to_string(&plot).unwrap().contains("<svg"));
+    let table = ok(&[
+        "trajectory",
+        "tests/data/dcd/ethane_cell.dcd",
+        "--topology",
+        "tests/data/dcd/ethane.pdb",
+    ]);
+    assert!(table.contains("Caution: predicted couplings are model estimates"));
+    let e = fails(&["trajectory", "tests/data/dcd/ethane_cell.dcd"]);
+    assert!(e.contains("--topology"), "{e}");
+    let e = fails(&[
+        "trajectory",
+        "tests/data/malformed/truncated.xyz",
+        "--quiet",
+    ]);
+    assert!(e.contains("truncated.xyz"), "{e}");
+}

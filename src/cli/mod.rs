@@ -4,6 +4,7 @@
 pub(crate) mod atoms;
 pub(crate) mod models;
 pub(crate) mod predict;
+pub(crate) mod trajectory;
 
 use std::io::Write;
 use std::path::PathBuf;
