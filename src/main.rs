@@ -8,9 +8,11 @@ use clap::{Parser, Subcommand};
 
 mod cli;
 
+use cli::assign::{run_assign, AssignArgs};
 use cli::atoms::{run_atoms, AtomsArgs};
 use cli::models::{run_curve, run_models, CurveArgs, ModelsArgs};
 use cli::predict::{run_predict, PredictArgs};
+use cli::rank::{run_check, run_rank, CheckArgs, RankArgs};
 
 /// Vicinal 3J(H,H) couplings from conformer ensembles: prediction with
 /// Karplus-type equations, Boltzmann averaging and population fitting.
@@ -31,6 +33,12 @@ enum Command {
     Models(ModelsArgs),
     /// Tabulate (CSV) and plot (SVG) J against the dihedral for one parameter set.
     Curve(CurveArgs),
+    /// Decide axial or equatorial for ring protons from their measured couplings.
+    Assign(AssignArgs),
+    /// Rank candidate structures by how well their ensembles predict the measured couplings.
+    Rank(RankArgs),
+    /// Test each conformer (and ring-shape family) against the measured couplings.
+    Check(CheckArgs),
 }
 
 fn main() -> ExitCode {
@@ -40,6 +48,9 @@ fn main() -> ExitCode {
         Command::Predict(a) => run_predict(a),
         Command::Models(a) => run_models(a),
         Command::Curve(a) => run_curve(a),
+        Command::Assign(a) => run_assign(a),
+        Command::Rank(a) => run_rank(a),
+        Command::Check(a) => run_check(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,
