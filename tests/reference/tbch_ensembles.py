@@ -25,6 +25,8 @@ Written to tests/data/tbch/:
   trans.sdf, cis.sdf   multi-record SDF, SD field MMFF94_energy_kcal_mol
   trans_noalias.sdf    trans.sdf with the H2ax alias removed (a label-mapping
                        error case), only conformer 1
+  trans_doubled.sdf    conformer 1 with the H2eq proton aliased "H1" as
+                       well (a doubled-label error case)
   summary.txt          per conformer: relative energy, Cremer-Pople theta,
                        H1 position (printed by this script)
 
@@ -158,6 +160,15 @@ def make(name, smiles, seed, summary):
         w = Chem.SDWriter(os.path.join(OUT, "trans_noalias.sdf"))
         mol.SetProp("_Name", "trans-4-tert-butylcyclohexan-1-ol conformer 1, H2ax alias removed")
         mol.SetProp("MMFF94_energy_kcal_mol", f"{kept[0][0]:.6f}")
+        w.write(mol, confId=kept[0][1])
+        w.close()
+        for i, a in alias.items():
+            if a == "H2ax":
+                mol.GetAtomWithIdx(i).SetProp("molFileAlias", "H2ax")
+            if a == "H2eq":
+                mol.GetAtomWithIdx(i).SetProp("molFileAlias", "H1")
+        w = Chem.SDWriter(os.path.join(OUT, "trans_doubled.sdf"))
+        mol.SetProp("_Name", "trans-4-tert-butylcyclohexan-1-ol conformer 1, H2eq aliased H1 (doubled label)")
         w.write(mol, confId=kept[0][1])
         w.close()
 
