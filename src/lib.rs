@@ -13,7 +13,9 @@
 
 #![warn(missing_docs)]
 
+pub mod assign;
 pub mod atomref;
+pub mod check;
 pub mod elements;
 pub mod ensemble;
 pub mod error;
@@ -26,6 +28,7 @@ pub mod observed;
 pub mod output;
 pub mod plot;
 pub mod pucker;
+pub mod rank;
 pub mod report;
 pub mod states;
 pub mod timeseries;

@@ -8,10 +8,12 @@ use clap::{Parser, Subcommand};
 
 mod cli;
 
+use cli::assign::{run_assign, AssignArgs};
 use cli::atoms::{run_atoms, AtomsArgs};
 use cli::models::{run_curve, run_models, CurveArgs, ModelsArgs};
 use cli::predict::{run_predict, PredictArgs};
 use cli::trajectory::{run_trajectory, TrajectoryArgs};
+use cli::rank::{run_check, run_rank, CheckArgs, RankArgs};
 
 /// Vicinal 3J(H,H) couplings from conformer ensembles: prediction with
 /// Karplus-type equations, Boltzmann averaging and population fitting.
@@ -34,6 +36,12 @@ enum Command {
     Curve(CurveArgs),
     /// Time-averaged couplings, their errors, and ring/rotamer states over an MD trajectory.
     Trajectory(TrajectoryArgs),
+    /// Decide axial or equatorial for ring protons from their measured couplings.
+    Assign(AssignArgs),
+    /// Rank candidate structures by how well their ensembles predict the measured couplings.
+    Rank(RankArgs),
+    /// Test each conformer (and ring-shape family) against the measured couplings.
+    Check(CheckArgs),
 }
 
 fn main() -> ExitCode {
@@ -44,6 +52,9 @@ fn main() -> ExitCode {
         Command::Models(a) => run_models(a),
         Command::Curve(a) => run_curve(a),
         Command::Trajectory(a) => run_trajectory(a),
+        Command::Assign(a) => run_assign(a),
+        Command::Rank(a) => run_rank(a),
+        Command::Check(a) => run_check(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -1,10 +1,12 @@
 //! Pieces shared by the subcommands: input, weighting and model options, and
 //! writing a report to a file or standard output.
 
+pub(crate) mod assign;
 pub(crate) mod atoms;
 pub(crate) mod models;
 pub(crate) mod predict;
 pub(crate) mod trajectory;
+pub(crate) mod rank;
 
 use std::io::Write;
 use std::path::PathBuf;

@@ -1,7 +1,9 @@
 //! Reports for people (aligned tables) and for scripts (CSV, JSON).
 
+pub mod assign;
 pub mod atoms;
 pub mod predict;
+pub mod rank;
 pub mod table;
 pub mod trajectory;
 
