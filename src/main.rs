@@ -12,8 +12,8 @@ use cli::assign::{run_assign, AssignArgs};
 use cli::atoms::{run_atoms, AtomsArgs};
 use cli::models::{run_curve, run_models, CurveArgs, ModelsArgs};
 use cli::predict::{run_predict, PredictArgs};
-use cli::trajectory::{run_trajectory, TrajectoryArgs};
 use cli::rank::{run_check, run_rank, CheckArgs, RankArgs};
+use cli::trajectory::{run_trajectory, TrajectoryArgs};
 
 /// Vicinal 3J(H,H) couplings from conformer ensembles: prediction with
 /// Karplus-type equations, Boltzmann averaging and population fitting.

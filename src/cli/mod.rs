@@ -5,8 +5,8 @@ pub(crate) mod assign;
 pub(crate) mod atoms;
 pub(crate) mod models;
 pub(crate) mod predict;
-pub(crate) mod trajectory;
 pub(crate) mod rank;
+pub(crate) mod trajectory;
 
 use std::io::Write;
 use std::path::PathBuf;
