@@ -9,6 +9,7 @@ use clap::{Parser, Subcommand};
 mod cli;
 
 use cli::atoms::{run_atoms, AtomsArgs};
+use cli::fit::{run_fit, FitArgs};
 use cli::models::{run_curve, run_models, CurveArgs, ModelsArgs};
 use cli::predict::{run_predict, PredictArgs};
 
@@ -31,6 +32,8 @@ enum Command {
     Models(ModelsArgs),
     /// Tabulate (CSV) and plot (SVG) J against the dihedral for one parameter set.
     Curve(CurveArgs),
+    /// Fit populations of conformers or groups (free, two-state, reweighting, van 't Hoff) to measured couplings.
+    Fit(FitArgs),
 }
 
 fn main() -> ExitCode {
@@ -40,6 +43,7 @@ fn main() -> ExitCode {
         Command::Predict(a) => run_predict(a),
         Command::Models(a) => run_models(a),
         Command::Curve(a) => run_curve(a),
+        Command::Fit(a) => run_fit(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

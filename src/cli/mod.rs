@@ -2,6 +2,7 @@
 //! writing a report to a file or standard output.
 
 pub(crate) mod atoms;
+pub(crate) mod fit;
 pub(crate) mod models;
 pub(crate) mod predict;
 

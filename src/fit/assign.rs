@@ -92,7 +92,7 @@ pub fn fit_open_pairs(
         let p = swapped_problem(mask);
         let fit = fit_populations(&p, opts)?;
         let chi2 = fit.quality.chi2;
-        if best.map_or(true, |(c, _)| chi2 < c) {
+        if best.is_none_or(|(c, _)| chi2 < c) {
             best = Some((chi2, mask));
         }
         assignments.push(Assignment {

@@ -1,6 +1,7 @@
 //! Reports for people (aligned tables) and for scripts (CSV, JSON).
 
 pub mod atoms;
+pub mod fit;
 pub mod predict;
 pub mod table;
 
