@@ -111,7 +111,12 @@ pub fn write_table(w: &mut dyn Write, fit: &EnsembleFit) -> io::Result<()> {
             }
             writeln!(
                 w,
-                "  std err: from the covariance of the fit (none for a population at a bound); reference: the prediction's populations."
+                "  std err: {} (none for a population at a bound); reference: the prediction's populations.",
+                if interval_src == "Monte Carlo" {
+                    "from the covariance of the fit"
+                } else {
+                    "from the curvature of chi2"
+                }
             )?;
             if let ModelResult::TwoState(ts) = &fit.result {
                 writeln!(w)?;
@@ -406,13 +411,13 @@ fn members(m: &[usize]) -> String {
 /// (chi2 per assignment), `monte_carlo` (samples, seed).
 pub fn write_csv(w: &mut dyn Write, fit: &EnsembleFit) -> io::Result<()> {
     let mut wr = csv::Writer::from_writer(w);
+    wr.write_record(["section", "item", "quantity", "value", "unit"])?;
     let mut rec = |s: &str, item: &str, q: &str, v: f64, u: &str| -> io::Result<()> {
         if v.is_finite() {
             wr.write_record([s, item, q, &format!("{v}"), u])?;
         }
         Ok(())
     };
-    rec("section", "item", "quantity", f64::NAN, "")?;
     let q = fit.result.quality();
     rec("fit", &fit.model, "chi2", q.chi2, "")?;
     rec("fit", &fit.model, "dof", q.dof as f64, "")?;
@@ -563,14 +568,12 @@ struct JsonReport<'a> {
 /// The whole fit as one JSON document (field names as in
 /// [`EnsembleFit`], plus `caution`).
 pub fn write_json(w: &mut dyn Write, fit: &EnsembleFit) -> io::Result<()> {
-    serde_json::to_writer_pretty(
-        &mut *w,
-        &JsonReport {
-            caution: CAUTION,
-            fit,
-        },
-    )
+    let text = serde_json::to_string_pretty(&JsonReport {
+        caution: CAUTION,
+        fit,
+    })
     .map_err(io::Error::other)?;
+    w.write_all(text.as_bytes())?;
     writeln!(w)
 }
 

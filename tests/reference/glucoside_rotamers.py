@@ -9,7 +9,8 @@ told apart by RDKit CIP labels (the H whose replacement by deuterium makes C6
 (R) is H6R), as in tests/reference/hydroxymethyl_prochirality.py.
 
 Writes tests/data/fit/glucoside_rotamers.sdf (3 records, title names the
-rotamer, SD field omega_deg) and tests/data/fit/glucoside_observed.csv with
+rotamer, SD field omega_deg), tests/data/fit/glucoside_rotamers_65.sdf (the
+same with omega -65/65/180, the limiting values of the authors' analysis) and tests/data/fit/glucoside_observed.csv with
 the published couplings of methyl alpha-D-glucopyranoside, J5,6R = 5.49 Hz and
 J5,6S = 2.39 Hz (Stenutz, Carmichael, Widmalm & Serianni, J. Org. Chem. 67,
 949, 2002), whose gg/gt/tg populations the authors give as 42/47/10 %.
@@ -51,15 +52,22 @@ for h in h6:
 pro_r = [h for h in h6 if labels[h] == "R"][0]
 pro_s = [h for h in h6 if labels[h] == "S"][0]
 
-writer = Chem.SDWriter(str(OUT / "glucoside_rotamers.sdf"))
-for name, omega in [("gg", -60.0), ("gt", 60.0), ("tg", 180.0)]:
-    m = Chem.Mol(mol)
-    conf = m.GetConformer()
-    rdMolTransforms.SetDihedralDeg(conf, ring_o, c5, c6, o6, omega)
-    m.SetProp("_Name", f"methyl alpha-D-glucopyranoside {name} (omega {omega:.0f} deg)")
-    m.SetProp("omega_deg", f"{rdMolTransforms.GetDihedralDeg(conf, ring_o, c5, c6, o6):.4f}")
-    writer.write(m)
-writer.close()
+def write_rotamers(path, limits):
+    writer = Chem.SDWriter(str(path))
+    for name, omega in zip(["gg", "gt", "tg"], limits):
+        m = Chem.Mol(mol)
+        conf = m.GetConformer()
+        rdMolTransforms.SetDihedralDeg(conf, ring_o, c5, c6, o6, omega)
+        m.SetProp("_Name", f"methyl alpha-D-glucopyranoside {name} (omega {omega:.0f} deg)")
+        m.SetProp("omega_deg", f"{rdMolTransforms.GetDihedralDeg(conf, ring_o, c5, c6, o6):.4f}")
+        writer.write(m)
+    writer.close()
+
+
+# Ideal staggered rotamers, and the limiting omega the authors used for their
+# populations (-65/65/180 deg; www.stenutz.eu/conf/hm2.php, from memory).
+write_rotamers(OUT / "glucoside_rotamers.sdf", [-60.0, 60.0, 180.0])
+write_rotamers(OUT / "glucoside_rotamers_65.sdf", [-65.0, 65.0, 180.0])
 
 (OUT / "glucoside_observed.csv").write_text(
     "# Methyl alpha-D-glucopyranoside: J5,6R and J5,6S as published by Stenutz,\n"
