@@ -176,9 +176,13 @@ pub fn write_table(w: &mut dyn Write, fit: &EnsembleFit) -> io::Result<()> {
                 w,
                 "  theta {}; kept fraction of the reference exp(-S) {}; relative entropy S {} nats",
                 r.theta
-                    .map_or("infinite (reference kept)".to_string(), |t| format!(
-                        "{t:.4e}"
-                    )),
+                    .map_or("infinite (reference kept)".to_string(), |t| {
+                        if (1e-3..1e4).contains(&t) {
+                            format!("{t:.4}")
+                        } else {
+                            format!("{t:.3e}")
+                        }
+                    }),
                 f(r.kept_fraction, 3),
                 f(r.relative_entropy, 4)
             )?;
