@@ -27,6 +27,7 @@ pub mod karplus;
 pub mod observed;
 pub mod output;
 pub mod plot;
+pub mod populations;
 pub mod pucker;
 pub mod rank;
 pub mod report;

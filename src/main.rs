@@ -10,6 +10,7 @@ mod cli;
 
 use cli::assign::{run_assign, AssignArgs};
 use cli::atoms::{run_atoms, AtomsArgs};
+use cli::fit::{run_fit, FitArgs};
 use cli::models::{run_curve, run_models, CurveArgs, ModelsArgs};
 use cli::predict::{run_predict, PredictArgs};
 use cli::rank::{run_check, run_rank, CheckArgs, RankArgs};
@@ -42,6 +43,8 @@ enum Command {
     Rank(RankArgs),
     /// Test each conformer (and ring-shape family) against the measured couplings.
     Check(CheckArgs),
+    /// Fit populations of conformers or groups (free, two-state, reweighting, van 't Hoff) to measured couplings.
+    Fit(FitArgs),
 }
 
 fn main() -> ExitCode {
@@ -55,6 +58,7 @@ fn main() -> ExitCode {
         Command::Assign(a) => run_assign(a),
         Command::Rank(a) => run_rank(a),
         Command::Check(a) => run_check(a),
+        Command::Fit(a) => run_fit(a),
     };
     match result {
         Ok(()) => ExitCode::SUCCESS,

@@ -3,6 +3,7 @@
 
 pub(crate) mod assign;
 pub(crate) mod atoms;
+pub(crate) mod fit;
 pub(crate) mod models;
 pub(crate) mod predict;
 pub(crate) mod rank;

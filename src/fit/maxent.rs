@@ -156,6 +156,16 @@ impl Dual<'_> {
     fn minimise(&self, nu: &mut DVector<f64>, theta: f64, w: &mut DVector<f64>) -> Option<usize> {
         let m = nu.len();
         let scale_hz = 1.0 + self.y.amax();
+        // θ·ln Σ w⁰ exp(…) is evaluated as θ·(max + ln z): its rounding error
+        // grows with θ·|ln w⁰|, which for large θ and skewed reference
+        // weights exceeds a relative allowance on φ alone.
+        let max_ln_w0 = self
+            .ln_w0
+            .iter()
+            .filter(|v| v.is_finite())
+            .map(|v| v.abs())
+            .fold(0.0, f64::max);
+        let rounding = 1e-13 * theta * (1.0 + max_ln_w0);
         let mut phi = self.eval(nu, theta, w);
         for it in 0..200 {
             let mean = self.a * &*w;
@@ -182,7 +192,7 @@ impl Dual<'_> {
                 let cand = &*nu + &step * t;
                 let p = self.eval(&cand, theta, &mut trial);
                 // Armijo, with an allowance for rounding in φ itself.
-                if p.is_finite() && p <= phi + 1e-4 * t * slope + 1e-14 * phi.abs() {
+                if p.is_finite() && p <= phi + 1e-4 * t * slope + 1e-14 * phi.abs() + rounding {
                     *nu = cand;
                     phi = p;
                     std::mem::swap(w, &mut trial);

@@ -2,6 +2,7 @@
 
 pub mod assign;
 pub mod atoms;
+pub mod fit;
 pub mod predict;
 pub mod rank;
 pub mod table;
