@@ -144,6 +144,28 @@ def write_observed(name, rows, header):
             f.write(f"{a + 1},{b + 1},{j:.1f},{s:.1f}\n")
 
 
+def repaired(mol, xyz, ref):
+    """Coordinates `xyz` with the two protons of every CH2 exchanged where they
+    sit the other way round from `ref` (conformer 1), as vicinal does before
+    evaluating couplings: ETKDG places the two equivalent-in-the-graph protons
+    either way round, so an atom index alone does not follow one proton."""
+    x = xyz.copy()
+    for a in mol.GetAtoms():
+        nbs = [n.GetIdx() for n in a.GetNeighbors()]
+        hs = sorted(i for i in nbs if mol.GetAtomWithIdx(i).GetAtomicNum() == 1)
+        others = sorted(i for i in nbs if i not in hs)
+        if len(nbs) != 4 or len(hs) != 2:
+            continue
+        c = a.GetIdx()
+
+        def side(q):
+            return np.sign((q[hs[0]] - q[c]) @ np.cross(q[others[0]] - q[c], q[others[1]] - q[c]))
+
+        if side(xyz) != side(ref):
+            x[[hs[0], hs[1]]] = x[[hs[1], hs[0]]]
+    return x
+
+
 def typical(p, q):
     return {"aa": J_AA, "ae": J_AE, "ea": J_AE, "ee": J_EE}[p + q]
 
@@ -176,16 +198,18 @@ def cyclohexanol():
     h3 = hydrogens(mol, 2)
     pairs = [(h1, 6, h2, 1), (h1, 6, h6[0], 5), (h1, 6, h6[1], 5), (h2, 1, h3[0], 2), (h2, 1, h3[1], 2)]
     rows = []
+    ref = mol.GetConformer(kept[0][1]).GetPositions()
     for ha, ca, hb, cb in pairs:
         j = 0.0
         for me, w in (("e", 0.7), ("a", 0.3)):
-            x = mol.GetConformer(chairs[me]).GetPositions()
+            x = repaired(mol, mol.GetConformer(chairs[me]).GetPositions(), ref)
             j += w * typical(ax_eq(x, ring, ca, ha), ax_eq(x, ring, cb, hb))
         rows.append((ha, hb, j, 0.3, None))
     write_observed(name, rows, [
         "INVENTED demo values, not measured and not computed: a 70:30 mix (methyl-equatorial :",
         "methyl-axial chair) of typical vicinal couplings (common practice: ax-ax 11.0, ax-eq 3.5,",
-        "eq-eq 2.5 Hz), chair positions from the example geometries. Scenario: cis-2-methylcyclohexan-1-ol;",
+        "eq-eq 2.5 Hz), chair positions from the example geometries (CH2 protons followed by their",
+        "conformer-1 positions, as vicinal does). Scenario: cis-2-methylcyclohexan-1-ol;",
         "pairs H1-H2, H1-H6 (x2), H2-H3 (x2); atoms 1-based into cis2mech.sdf/.xyz;",
         f"made by examples/make_ensembles.py ({HEADER}).",
     ])
