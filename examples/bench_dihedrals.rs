@@ -66,7 +66,7 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
         let c = &frame.coords;
         for p in &pairs {
             if let Some(t) = dihedral(&c[p[0]], &c[p[1]], &c[p[2]], &c[p[3]]) {
-                checksum += t.cos();
+                checksum += t;
                 n_dihedrals += 1;
             }
         }

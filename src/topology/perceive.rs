@@ -154,6 +154,10 @@ pub struct FrameChecker {
     radii: Vec<f64>,
     grid: GridScan,
     sorted_bonds: Vec<(usize, usize, BondOrder)>,
+    /// For small molecules, per pair i < j (row-major upper triangle): the
+    /// squared distance below which the pair needs a closer look (a new bond,
+    /// or duplicate atoms). Empty for large molecules, which use the grid.
+    pair_alarm2: Vec<f64>,
 }
 
 impl FrameChecker {
@@ -168,6 +172,7 @@ impl FrameChecker {
                 .collect(),
             grid: GridScan::default(),
             sorted_bonds: Vec::new(),
+            pair_alarm2: pair_alarms(top),
         }
     }
 
@@ -213,6 +218,9 @@ impl FrameChecker {
         let coords = &frame.coords;
         match top.bond_source {
             BondSource::Distance => {
+                if !self.pair_alarm2.is_empty() && self.quick_pairs_ok(coords) {
+                    return self.check_bond_lengths(frame, conformer);
+                }
                 for b in &top.bonds {
                     let d = (coords[b.a] - coords[b.b]).norm();
                     let cut = self.radii[b.a] + self.radii[b.b] + BOND_TOLERANCE_A;
@@ -279,6 +287,47 @@ impl FrameChecker {
                 Ok(())
             }
         }
+    }
+
+    /// Fast path for small molecules: true when no pair comes closer than its
+    /// alarm distance (no new bond, no duplicate atoms). When it is false the
+    /// full scan runs and names the atoms.
+    fn quick_pairs_ok(&self, coords: &[Vec3]) -> bool {
+        let n = coords.len();
+        let mut k = 0;
+        for i in 0..n {
+            let ci = coords[i];
+            for cj in &coords[i + 1..] {
+                if (cj - ci).norm_squared() < self.pair_alarm2[k] {
+                    return false;
+                }
+                k += 1;
+            }
+        }
+        true
+    }
+
+    /// Every bond of the topology still within its cutoff.
+    fn check_bond_lengths(&self, frame: &Frame, conformer: usize) -> Result<()> {
+        let coords = &frame.coords;
+        for b in &self.top.bonds {
+            let cut = self.radii[b.a] + self.radii[b.b] + BOND_TOLERANCE_A;
+            let d2 = (coords[b.a] - coords[b.b]).norm_squared();
+            if d2 > cut * cut {
+                return Err(conformer_err(
+                    frame,
+                    conformer,
+                    format!(
+                        "bond {}–{} is broken ({:.2} Å; bonded up to {:.2} Å)",
+                        label(frame, b.a),
+                        label(frame, b.b),
+                        d2.sqrt(),
+                        cut
+                    ),
+                ));
+            }
+        }
+        Ok(())
     }
 
     fn compare_file_bonds(&mut self, frame: &Frame, conformer: usize) -> Result<()> {
@@ -442,6 +491,33 @@ fn file_bonds(frame: &Frame) -> Result<Vec<Bond>> {
 /// Most grid cells allowed per atom; beyond it the cell edge grows, which
 /// keeps memory O(n) for sparse inputs (molecules far apart).
 const MAX_CELLS_PER_ATOM: usize = 8;
+
+/// Alarm distances for the small-molecule fast path of [`FrameChecker`]: for
+/// a bonded pair or two hydrogens, the duplicate-atom distance; otherwise the
+/// bond cutoff (a closer approach would be a new bond). Empty above
+/// [`BRUTE_FORCE_MAX_ATOMS`] atoms or for bonds from the file.
+fn pair_alarms(top: &Topology) -> Vec<f64> {
+    let n = top.len();
+    if n > BRUTE_FORCE_MAX_ATOMS || top.bond_source != BondSource::Distance {
+        return Vec::new();
+    }
+    let dup2 = DUPLICATE_DISTANCE_A * DUPLICATE_DISTANCE_A;
+    let mut v = Vec::with_capacity(n * n.saturating_sub(1) / 2);
+    for i in 0..n {
+        for j in i + 1..n {
+            let both_h = top.atoms[i].element.is_hydrogen() && top.atoms[j].element.is_hydrogen();
+            if both_h || top.bonded(i, j) {
+                v.push(dup2);
+            } else {
+                let cut = top.atoms[i].element.covalent_radius()
+                    + top.atoms[j].element.covalent_radius()
+                    + BOND_TOLERANCE_A;
+                v.push((cut * cut).max(dup2));
+            }
+        }
+    }
+    v
+}
 
 /// Up to this many atoms, pair scans test every pair instead of a cell grid
 /// (the grid's set-up costs more than it saves for small molecules).
