@@ -599,17 +599,30 @@ impl PreparedPair {
         let (cos_phi, sin_phi) = (dx / r, dy / r);
         let j = match &self.kernel {
             Kernel::Hla { p, subs, n } => {
-                let mut terms = [(0.0, 1.0, 1.0, 0.0); MAX_TERMS];
-                for (t, s) in terms.iter_mut().zip(&subs[..*n]) {
-                    let sp = &coords[s.atom];
-                    let xi = if s.on_x {
-                        xi_sign(h1, x, sp, y)
+                // The same sum as equations::hla_sin_cos, accumulated in place.
+                let c = cos_phi;
+                let mut j = p.p1 * c * c + p.p2 * c + p.p3;
+                // Bond vectors from each carbon, shared by its substituents.
+                let (hx, yx) = (h1 - x, y - x);
+                let (hy, xy) = (h2 - y, x - y);
+                let (nx, ny) = (yx.cross(&hx), xy.cross(&hy));
+                for s in subs.iter().take(*n) {
+                    let sp = coords.get(s.atom).ok_or_else(|| {
+                        self.fail("coordinates do not cover every atom of the fragment")
+                    })?;
+                    // ξ = sign[((Ha − Ca) × (S − Ca)) · (Cb − Ca)]
+                    //   = sign[(S − Ca) · ((Cb − Ca) × (Ha − Ca))], a triple
+                    // product rotated so the cross product is shared.
+                    let t = if s.on_x {
+                        (sp - x).dot(&nx)
                     } else {
-                        xi_sign(h2, y, sp, x)
+                        (sp - y).dot(&ny)
                     };
-                    *t = (s.dchi, xi, s.cos_a, s.sin_a);
+                    let xi = if t < 0.0 { -1.0 } else { 1.0 };
+                    let u = c * s.cos_a - xi * sin_phi * s.sin_a;
+                    j += s.dchi * (p.p4 + p.p5 * u * u);
                 }
-                equations::hla_sin_cos(p, cos_phi, sin_phi, &terms[..*n])
+                j
             }
             Kernel::Single(f) => equations::single_sin_cos(f, cos_phi, sin_phi),
             Kernel::Omega { form, hm } => {
