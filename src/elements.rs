@@ -221,6 +221,17 @@ mod tests {
         assert_eq!(Element::I.chi_huggins(), Some(2.65));
     }
 
+    // S, Si and P: Huggins values recalled from memory; the table must say so,
+    // and the HLA preparation warns on them.
+    #[test]
+    fn unchecked_values_are_marked() {
+        for e in [Element::S, Element::SI, Element::P] {
+            assert!(e.chi_huggins().is_some());
+            assert!(e.data().chi_source.contains("from memory"), "{e}");
+        }
+        assert!(!Element::O.data().chi_source.contains("from memory"));
+    }
+
     // Cordero et al. 2008, Table 2 (from memory).
     #[test]
     fn cordero_radii() {

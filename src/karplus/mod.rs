@@ -501,7 +501,15 @@ impl PreparedPair {
                 let chi = |i: usize, warn: &mut dyn FnMut(String)| -> f64 {
                     let e = top.atoms[i].element;
                     match e.chi_huggins() {
-                        Some(c) => c - chi_h,
+                        Some(c) => {
+                            if e.data().chi_source.contains("from memory") {
+                                warn(format!(
+                                    "the Huggins electronegativity of {e} ({}) is a value from memory, not checked against the paper",
+                                    top.atom_ref(i)
+                                ));
+                            }
+                            c - chi_h
+                        }
                         None => {
                             warn(format!(
                                 "no Huggins electronegativity for {} ({}); its Δχ is taken as 0",
