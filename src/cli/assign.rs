@@ -10,7 +10,7 @@ use vicinal::observed;
 use vicinal::report::{self, OutputForm};
 
 use super::rank::{predict_files, ErrorArgs};
-use super::{output_form, write_out, InputArgs, ModelArgs};
+use super::{output_form, write_out, InputArgs, ModelArgs, OutputArgs};
 
 #[derive(Args, Debug)]
 pub(crate) struct AssignArgs {
@@ -29,16 +29,12 @@ pub(crate) struct AssignArgs {
     pub(crate) error: ErrorArgs,
     #[command(flatten)]
     pub(crate) models: ModelArgs,
-    /// Output form: table (for people), csv or json.
-    #[arg(long = "as", value_name = "FORM", default_value = "table")]
-    pub(crate) form: String,
-    /// Write the report to this file instead of standard output.
-    #[arg(short = 'o', long = "out", value_name = "FILE")]
-    pub(crate) out: Option<PathBuf>,
+    #[command(flatten)]
+    pub(crate) output: OutputArgs,
 }
 
 pub(crate) fn run_assign(a: &AssignArgs) -> Result<()> {
-    let form = output_form(&a.form)?;
+    let form = output_form(&a.output.form)?;
     let em = a.error.model()?;
     if !(a.decisive.is_finite() && a.decisive > 1.0) {
         bail!("--decisive must be a number above 1");
@@ -57,7 +53,7 @@ pub(crate) fn run_assign(a: &AssignArgs) -> Result<()> {
     let r = assign::assign(&pr, &obs, &a.protons, &opts)?;
     let mut inputs = a.input.files.clone();
     inputs.push(a.observed.clone());
-    write_out(&a.out, &inputs, |w| match form {
+    write_out(&a.output.out, &inputs, |w| match form {
         OutputForm::Table => report::assign::write_table(w, &r),
         OutputForm::Csv => report::assign::write_csv(w, &r),
         OutputForm::Json => report::assign::write_json(w, &r),

@@ -17,7 +17,7 @@ use vicinal::populations::{
 };
 use vicinal::report::{self, OutputForm};
 
-use super::{output_form, write_out, InputArgs, ModelArgs};
+use super::{output_form, write_out, InputArgs, ModelArgs, OutputArgs};
 
 #[derive(Args, Debug)]
 pub(crate) struct FitArgs {
@@ -68,12 +68,8 @@ pub(crate) struct FitArgs {
     /// then says why the numbers are one answer among many).
     #[arg(long = "fit-anyway")]
     pub(crate) fit_anyway: bool,
-    /// Output form: table (for people), csv or json.
-    #[arg(long = "as", value_name = "FORM", default_value = "table")]
-    pub(crate) form: String,
-    /// Write the report to this file instead of standard output.
-    #[arg(short = 'o', long = "out", value_name = "FILE")]
-    pub(crate) out: Option<PathBuf>,
+    #[command(flatten)]
+    pub(crate) output: OutputArgs,
     /// Write an SVG of observed against fitted couplings here.
     #[arg(long = "plot", value_name = "FILE.svg")]
     pub(crate) plot: Option<PathBuf>,
@@ -90,7 +86,7 @@ fn positive(v: f64, what: &str) -> Result<f64> {
 }
 
 pub(crate) fn run_fit(a: &FitArgs) -> Result<()> {
-    let form = output_form(&a.form)?;
+    let form = output_form(&a.output.form)?;
     let model = match a.populations.to_ascii_lowercase().as_str() {
         "free" => PopulationModel::Free,
         "two-state" | "two" => PopulationModel::TwoState,
@@ -167,7 +163,7 @@ pub(crate) fn run_fit(a: &FitArgs) -> Result<()> {
         let svg = report::fit::populations_plot(&fit).to_svg();
         output::write_atomic(p, &inputs, |w| w.write_all(svg.as_bytes()))?;
     }
-    write_out(&a.out, &inputs, |w| match form {
+    write_out(&a.output.out, &inputs, |w| match form {
         OutputForm::Table => report::fit::write_table(w, &fit),
         OutputForm::Csv => report::fit::write_csv(w, &fit),
         OutputForm::Json => report::fit::write_json(w, &fit),

@@ -32,6 +32,17 @@ pub(crate) fn load_library(extra: &[PathBuf]) -> Result<ParamLibrary> {
     Ok(lib)
 }
 
+/// Where and in which form a report is written.
+#[derive(Args, Debug, Clone)]
+pub(crate) struct OutputArgs {
+    /// Output form: table (for people), csv or json.
+    #[arg(long = "as", value_name = "FORM", default_value = "table")]
+    pub(crate) form: String,
+    /// Write the report to this file instead of standard output.
+    #[arg(short = 'o', long = "out", value_name = "FILE")]
+    pub(crate) out: Option<PathBuf>,
+}
+
 /// Options shared by every command that reads an ensemble.
 #[derive(Args, Debug, Clone)]
 pub(crate) struct InputArgs {

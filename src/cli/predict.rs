@@ -1,14 +1,12 @@
 //! `vicinal predict`.
 
-use std::path::PathBuf;
-
 use anyhow::Result;
 use clap::Args;
 
 use vicinal::ensemble::predict::{self, PredictOptions};
 use vicinal::report::{self, OutputForm};
 
-use super::{output_form, write_out, InputArgs, ModelArgs};
+use super::{output_form, write_out, InputArgs, ModelArgs, OutputArgs};
 
 #[derive(Args, Debug)]
 pub(crate) struct PredictArgs {
@@ -16,22 +14,18 @@ pub(crate) struct PredictArgs {
     pub(crate) input: InputArgs,
     #[command(flatten)]
     pub(crate) models: ModelArgs,
-    /// Output form: table (for people), csv or json.
-    #[arg(long = "as", value_name = "FORM", default_value = "table")]
-    pub(crate) form: String,
+    #[command(flatten)]
+    pub(crate) output: OutputArgs,
     /// In the table, show the per-conformer dihedrals and couplings whatever the ensemble size.
     #[arg(long = "each", conflicts_with = "no_each")]
     pub(crate) each: bool,
     /// In the table, leave out the per-conformer block.
     #[arg(long = "no-each")]
     pub(crate) no_each: bool,
-    /// Write the report to this file instead of standard output.
-    #[arg(short = 'o', long = "out", value_name = "FILE")]
-    pub(crate) out: Option<PathBuf>,
 }
 
 pub(crate) fn run_predict(a: &PredictArgs) -> Result<()> {
-    let form = output_form(&a.form)?;
+    let form = output_form(&a.output.form)?;
     let library = a.models.library()?;
     let choice = a.models.choice(&library)?;
     let weighting = a.models.weighting(None)?;
@@ -49,7 +43,7 @@ pub(crate) fn run_predict(a: &PredictArgs) -> Result<()> {
     } else {
         None
     };
-    write_out(&a.out, &a.input.files, |w| match form {
+    write_out(&a.output.out, &a.input.files, |w| match form {
         OutputForm::Table => report::predict::write_table(w, &pr, each),
         OutputForm::Csv => report::predict::write_csv(w, &pr),
         OutputForm::Json => report::predict::write_json(w, &pr),

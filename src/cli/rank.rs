@@ -13,7 +13,7 @@ use vicinal::observed;
 use vicinal::rank::{self, Candidate, ErrorModel, LabelMap, RankOptions};
 use vicinal::report::{self, OutputForm};
 
-use super::{output_form, write_out, InputArgs, ModelArgs};
+use super::{output_form, write_out, InputArgs, ModelArgs, OutputArgs};
 
 /// Options of the error model (rank, assign, check).
 #[derive(Args, Debug, Clone)]
@@ -83,12 +83,8 @@ pub(crate) struct RankArgs {
     pub(crate) energy_key: Option<String>,
     #[command(flatten)]
     pub(crate) models: ModelArgs,
-    /// Output form: table (for people), csv or json.
-    #[arg(long = "as", value_name = "FORM", default_value = "table")]
-    pub(crate) form: String,
-    /// Write the report to this file instead of standard output.
-    #[arg(short = 'o', long = "out", value_name = "FILE")]
-    pub(crate) out: Option<PathBuf>,
+    #[command(flatten)]
+    pub(crate) output: OutputArgs,
     /// Also write the predicted-against-observed plot of every candidate (SVG).
     #[arg(long = "plot", value_name = "FILE.svg")]
     pub(crate) plot: Option<PathBuf>,
@@ -123,7 +119,7 @@ pub(crate) fn predict_files(
 }
 
 pub(crate) fn run_rank(a: &RankArgs) -> Result<()> {
-    let form = output_form(&a.form)?;
+    let form = output_form(&a.output.form)?;
     let em = a.error.model()?;
     let obs = observed::read_observations(&a.observed)?;
     let mut specs: Vec<(String, Vec<PathBuf>)> = Vec::new();
@@ -214,7 +210,7 @@ pub(crate) fn run_rank(a: &RankArgs) -> Result<()> {
         let svg = report::rank::plot_svg(&r);
         write_out(&Some(p.clone()), &inputs, |w| w.write_all(svg.as_bytes()))?;
     }
-    write_out(&a.out, &inputs, |w| match form {
+    write_out(&a.output.out, &inputs, |w| match form {
         OutputForm::Table => report::rank::write_table(w, &r),
         OutputForm::Csv => report::rank::write_csv(w, &r),
         OutputForm::Json => report::rank::write_json(w, &r),
@@ -235,16 +231,12 @@ pub(crate) struct CheckArgs {
     pub(crate) error: ErrorArgs,
     #[command(flatten)]
     pub(crate) models: ModelArgs,
-    /// Output form: table (for people), csv or json.
-    #[arg(long = "as", value_name = "FORM", default_value = "table")]
-    pub(crate) form: String,
-    /// Write the report to this file instead of standard output.
-    #[arg(short = 'o', long = "out", value_name = "FILE")]
-    pub(crate) out: Option<PathBuf>,
+    #[command(flatten)]
+    pub(crate) output: OutputArgs,
 }
 
 pub(crate) fn run_check(a: &CheckArgs) -> Result<()> {
-    let form = output_form(&a.form)?;
+    let form = output_form(&a.output.form)?;
     let em = a.error.model()?;
     if !(a.p_threshold > 0.0 && a.p_threshold < 1.0) {
         bail!("--p-threshold must lie between 0 and 1");
@@ -259,7 +251,7 @@ pub(crate) fn run_check(a: &CheckArgs) -> Result<()> {
     let c = check::check(&pr, &obs, &em, a.p_threshold)?;
     let mut inputs = a.input.files.clone();
     inputs.push(a.observed.clone());
-    write_out(&a.out, &inputs, |w| match form {
+    write_out(&a.output.out, &inputs, |w| match form {
         OutputForm::Table => report::rank::write_check_table(w, &c),
         OutputForm::Csv => report::rank::write_check_csv(w, &c),
         OutputForm::Json => report::rank::write_check_json(w, &c),
