@@ -74,11 +74,15 @@ pub struct NnlsWorkspace {
     cand: Vec<usize>,
     is_cand: Vec<bool>,
     scratch: Vec<(f64, usize)>,
+    /// Columns whose dual value is due (kernel input).
+    cols: Vec<usize>,
+    /// E_Pᵀ E_j of the column being appended.
+    cross: Vec<f64>,
 }
 
 /// Dot product with eight independent accumulators (lets the compiler
 /// vectorise; a single running sum cannot be reordered).
-#[inline]
+#[inline(always)]
 fn dot(a: &[f64], b: &[f64]) -> f64 {
     let n = a.len().min(b.len());
     let (a, b) = (&a[..n], &b[..n]);
@@ -95,6 +99,123 @@ fn dot(a: &[f64], b: &[f64]) -> f64 {
         tail += x * y;
     }
     ((acc[0] + acc[1]) + (acc[2] + acc[3])) + ((acc[4] + acc[5]) + (acc[6] + acc[7])) + tail
+}
+
+/// Dual-vector kernel: g_j = E_j · r for a list of columns of a column-major
+/// matrix. On x86-64 CPUs with AVX2 and FMA (detected at run time) four
+/// columns share each load of r; elsewhere it falls back to [`dot`].
+mod kernel {
+    use super::dot;
+
+    /// Writes `E_j · r` for every `j` in `cols`, where column `j` of the
+    /// column-major matrix `es` is `es[j*m..(j+1)*m]`: into `out[j]`, or with
+    /// `PACKED` into `out[k]` for the k-th entry of `cols`.
+    pub(super) fn column_dots<const PACKED: bool>(
+        es: &[f64],
+        m: usize,
+        r: &[f64],
+        cols: &[usize],
+        out: &mut [f64],
+    ) {
+        #[cfg(target_arch = "x86_64")]
+        {
+            if std::arch::is_x86_feature_detected!("avx2")
+                && std::arch::is_x86_feature_detected!("fma")
+                && r.len() >= m
+            {
+                // SAFETY: the CPU supports AVX2 and FMA (checked above), and
+                // r holds at least m entries (checked above).
+                unsafe { avx2::column_dots::<PACKED>(es, m, r, cols, out) };
+                return;
+            }
+        }
+        for (k, &j) in cols.iter().enumerate() {
+            out[if PACKED { k } else { j }] = dot(&es[j * m..(j + 1) * m], r);
+        }
+    }
+
+    #[cfg(target_arch = "x86_64")]
+    mod avx2 {
+        use std::arch::x86_64::*;
+
+        /// Horizontal sum of the four lanes.
+        #[inline]
+        #[target_feature(enable = "avx2,fma")]
+        unsafe fn hsum(v: __m256d) -> f64 {
+            let lo = _mm256_castpd256_pd128(v);
+            let hi = _mm256_extractf128_pd(v, 1);
+            let s = _mm_add_pd(lo, hi);
+            let h = _mm_unpackhi_pd(s, s);
+            _mm_cvtsd_f64(_mm_add_sd(s, h))
+        }
+
+        /// Columns and outputs are indexed with bounds checks (a bad index
+        /// panics, as in the scalar path).
+        ///
+        /// # Safety
+        /// The CPU must support AVX2 and FMA, and `r.len() >= m`.
+        #[target_feature(enable = "avx2,fma")]
+        pub(super) unsafe fn column_dots<const PACKED: bool>(
+            es: &[f64],
+            m: usize,
+            r: &[f64],
+            cols: &[usize],
+            out: &mut [f64],
+        ) {
+            let m4 = m - m % 4;
+            let rp = r.as_ptr();
+            let mut quads = cols.chunks_exact(4);
+            let mut k = 0;
+            for q in &mut quads {
+                let col = |j: usize| es[j * m..(j + 1) * m].as_ptr();
+                let (p0, p1, p2, p3) = (col(q[0]), col(q[1]), col(q[2]), col(q[3]));
+                let mut a0 = _mm256_setzero_pd();
+                let mut a1 = _mm256_setzero_pd();
+                let mut a2 = _mm256_setzero_pd();
+                let mut a3 = _mm256_setzero_pd();
+                let mut i = 0;
+                while i < m4 {
+                    let rv = _mm256_loadu_pd(rp.add(i));
+                    a0 = _mm256_fmadd_pd(_mm256_loadu_pd(p0.add(i)), rv, a0);
+                    a1 = _mm256_fmadd_pd(_mm256_loadu_pd(p1.add(i)), rv, a1);
+                    a2 = _mm256_fmadd_pd(_mm256_loadu_pd(p2.add(i)), rv, a2);
+                    a3 = _mm256_fmadd_pd(_mm256_loadu_pd(p3.add(i)), rv, a3);
+                    i += 4;
+                }
+                let (mut s0, mut s1, mut s2, mut s3) = (hsum(a0), hsum(a1), hsum(a2), hsum(a3));
+                while i < m {
+                    let rv = *rp.add(i);
+                    s0 += *p0.add(i) * rv;
+                    s1 += *p1.add(i) * rv;
+                    s2 += *p2.add(i) * rv;
+                    s3 += *p3.add(i) * rv;
+                    i += 1;
+                }
+                let at = |l: usize| if PACKED { k + l } else { q[l] };
+                out[at(0)] = s0;
+                out[at(1)] = s1;
+                out[at(2)] = s2;
+                out[at(3)] = s3;
+                k += 4;
+            }
+            for &j in quads.remainder() {
+                let p = es[j * m..(j + 1) * m].as_ptr();
+                let mut a = _mm256_setzero_pd();
+                let mut i = 0;
+                while i < m4 {
+                    a = _mm256_fmadd_pd(_mm256_loadu_pd(p.add(i)), _mm256_loadu_pd(rp.add(i)), a);
+                    i += 4;
+                }
+                let mut s = hsum(a);
+                while i < m {
+                    s += *p.add(i) * *rp.add(i);
+                    i += 1;
+                }
+                out[if PACKED { k } else { j }] = s;
+                k += 1;
+            }
+        }
+    }
 }
 
 /// (a·r, a·a) in one pass.
@@ -161,6 +282,7 @@ impl NnlsWorkspace {
 
     /// Appends column `j` to the Cholesky factor; false if it is (nearly)
     /// dependent on the columns already there or the factor is full.
+    #[inline(always)]
     fn push(&mut self, e: &[f64], m: usize, f: &[f64], j: usize) -> bool {
         let k = self.set.len();
         if k >= self.cap {
@@ -173,10 +295,13 @@ impl NnlsWorkspace {
             return false;
         }
         // Forward substitution Rᵀ s = E_Pᵀ E_j, written into column k of R.
+        if self.cross.len() < k {
+            self.cross.resize(k, 0.0);
+        }
+        kernel::column_dots::<true>(e, m, ej, &self.set, &mut self.cross);
         let mut ss = 0.0;
         for i in 0..k {
-            let ci = self.set[i];
-            let v = dot(&e[ci * m..(ci + 1) * m], ej);
+            let v = self.cross[i];
             let acc = v - dot(&self.r[i * cap..i * cap + i], &self.r[k * cap..k * cap + i]);
             let s = acc / self.r[i * cap + i];
             self.r[k * cap + i] = s;
@@ -192,6 +317,7 @@ impl NnlsWorkspace {
         true
     }
 
+    #[inline(always)]
     fn pop(&mut self) {
         self.set.pop();
         self.b.pop();
@@ -202,6 +328,7 @@ impl NnlsWorkspace {
     /// between calls: appending a column extends it by one entry, so only
     /// the entries past `u_valid` are computed; the back substitution runs
     /// column by column (contiguous access).
+    #[inline(always)]
     fn solve_z(&mut self) {
         let k = self.set.len();
         let cap = self.cap;
@@ -227,6 +354,7 @@ impl NnlsWorkspace {
     /// by deleting its column of R and restoring the triangle with Givens
     /// rotations (Golub & Van Loan, *Matrix Computations*, 4th ed., §6.5.2):
     /// O(k²) per column instead of a refactorisation.
+    #[inline(always)]
     fn drop_inactive(&mut self) {
         let cap = self.cap;
         let mut pos = 0;
@@ -288,6 +416,7 @@ impl NnlsWorkspace {
 
     /// The Lawson–Hanson inner loop (steps 8–11): from a feasible x with
     /// x_P > 0 and z = LS solution on P, step towards z until feasible.
+    #[inline(always)]
     fn inner_loop(&mut self) {
         loop {
             if self.set.is_empty() {
@@ -333,6 +462,45 @@ impl NnlsWorkspace {
     /// violates the optimality test, so the optimum is the same as Lawson and
     /// Hanson's.
     fn solve_impl(
+        &mut self,
+        e: &DMatrix<f64>,
+        f: &[f64],
+        start: Start<'_>,
+        hint: &Hint<'_>,
+    ) -> bool {
+        #[cfg(target_arch = "x86_64")]
+        {
+            if std::arch::is_x86_feature_detected!("avx2")
+                && std::arch::is_x86_feature_detected!("fma")
+            {
+                // SAFETY: the CPU supports AVX2 and FMA (checked above).
+                return unsafe { self.solve_avx2(e, f, start, hint) };
+            }
+        }
+        self.solve_body(e, f, start, hint)
+    }
+
+    /// [`solve_body`](Self::solve_body) compiled for AVX2 and FMA, so that
+    /// its inlined helpers (factor updates, substitutions) use 256-bit
+    /// vectors.
+    ///
+    /// # Safety
+    /// The CPU must support AVX2 and FMA.
+    #[cfg(target_arch = "x86_64")]
+    #[target_feature(enable = "avx2,fma")]
+    unsafe fn solve_avx2(
+        &mut self,
+        e: &DMatrix<f64>,
+        f: &[f64],
+        start: Start<'_>,
+        hint: &Hint<'_>,
+    ) -> bool {
+        self.solve_body(e, f, start, hint)
+    }
+
+    /// The solver loop proper (see [`solve_impl`](Self::solve_impl)).
+    #[inline(always)]
+    fn solve_body(
         &mut self,
         e: &DMatrix<f64>,
         f: &[f64],
@@ -426,13 +594,15 @@ impl NnlsWorkspace {
         loop {
             if !fresh {
                 self.compute_resid(es, m, f);
+                self.cols.clear();
                 for &j in &self.cand {
-                    self.grad[j] = if self.passive[j] {
-                        0.0
+                    if self.passive[j] {
+                        self.grad[j] = 0.0;
                     } else {
-                        dot(&es[j * m..(j + 1) * m], &self.resid)
-                    };
+                        self.cols.push(j);
+                    }
                 }
+                kernel::column_dots::<false>(es, m, &self.resid, &self.cols, &mut self.grad);
             }
             fresh = false;
             // Bring in the most promising candidate that keeps the LS
@@ -469,11 +639,9 @@ impl NnlsWorkspace {
             if !entered {
                 // Optimal on the working set: check every other column.
                 self.full_checks += 1;
-                for j in 0..n {
-                    if !self.is_cand[j] {
-                        self.grad[j] = dot(&es[j * m..(j + 1) * m], &self.resid);
-                    }
-                }
+                self.cols.clear();
+                self.cols.extend((0..n).filter(|&j| !self.is_cand[j]));
+                kernel::column_dots::<false>(es, m, &self.resid, &self.cols, &mut self.grad);
                 if !self.add_violators(tol, limit) {
                     return true;
                 }
@@ -489,6 +657,7 @@ impl NnlsWorkspace {
     }
 
     /// r = f − E x over the passive set.
+    #[inline(always)]
     fn compute_resid(&mut self, es: &[f64], m: usize, f: &[f64]) {
         self.resid.copy_from_slice(f);
         for &j in &self.set {
@@ -501,6 +670,7 @@ impl NnlsWorkspace {
 
     /// Adds to the working set the (up to `limit`) non-candidate columns
     /// with the largest dual value above `tol`; false if there are none.
+    #[inline(always)]
     fn add_violators(&mut self, tol: f64, limit: usize) -> bool {
         self.scratch.clear();
         for j in 0..self.grad.len() {

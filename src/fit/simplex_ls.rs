@@ -243,13 +243,13 @@ impl SimplexSolver {
         {
             let src = self.e0.as_slice();
             let dst = self.e.as_mut_slice();
-            for j in 0..self.n {
-                let s = &src[j * rows..(j + 1) * rows];
-                let d = &mut dst[j * rows..(j + 1) * rows];
-                for k in 0..self.m {
-                    d[k] = s[k] - delta[k];
+            let m = self.m;
+            let delta = &delta[..m];
+            for (d, s) in dst.chunks_exact_mut(rows).zip(src.chunks_exact(rows)) {
+                for ((dk, &sk), &dl) in d[..m].iter_mut().zip(&s[..m]).zip(delta) {
+                    *dk = sk - dl;
                 }
-                d[self.m] = s[self.m];
+                d[m] = s[m];
             }
         }
         if self.x_nominal.len() != self.n {
