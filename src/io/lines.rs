@@ -48,7 +48,26 @@ impl Lines {
     }
 
     /// The next line and its 1-based number, or `None` at end of input.
+    #[inline]
     pub(crate) fn next_line(&mut self) -> Result<Option<(usize, &[u8])>> {
+        // Common case, inlined: the whole line is already in the buffer.
+        let start = self.pos;
+        if let Some(off) = self.buf.get(start..self.end).and_then(find_newline) {
+            let nl = start + off;
+            self.prev = Some((start, self.line_no));
+            self.pos = nl + 1;
+            self.line_no += 1;
+            return Ok(Some((
+                self.line_no,
+                strip_cr(self.buf.get(start..nl).unwrap_or_default()),
+            )));
+        }
+        self.next_line_refill()
+    }
+
+    /// [`Lines::next_line`] when no full line is buffered: reads more input.
+    #[inline(never)]
+    fn next_line_refill(&mut self) -> Result<Option<(usize, &[u8])>> {
         let mut scan_from = self.pos;
         loop {
             if let Some(off) = find_newline(&self.buf[scan_from..self.end]) {

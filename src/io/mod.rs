@@ -179,8 +179,35 @@ pub(crate) fn finish_names(names: &mut Vec<String>, set: usize, n: usize) {
 
 /// The element for a symbol or an atomic number written as bytes
 /// (case-insensitive; `D`, `T` are hydrogen). Uses a lookup table built once,
-/// so it is cheap enough for the per-atom hot path of the readers.
+/// so it is cheap enough for the per-atom hot path of the readers; the common
+/// organic symbols are matched byte by byte first, without the table.
+#[inline]
 pub(crate) fn element_from_bytes(tok: &[u8]) -> Option<Element> {
+    // `x | 0x20` lower-cases ASCII letters and maps no other byte to a letter.
+    match *tok {
+        [a] => match a | 0x20 {
+            b'c' => return Some(Element::C),
+            b'h' | b'd' | b't' => return Some(Element::H),
+            b'o' => return Some(Element::O),
+            b'n' => return Some(Element::N),
+            b's' => return Some(Element::S),
+            b'p' => return Some(Element::P),
+            b'f' => return Some(Element::F),
+            b'i' => return Some(Element::I),
+            _ => {}
+        },
+        [a, b] => match (a | 0x20, b | 0x20) {
+            (b'c', b'l') => return Some(Element::CL),
+            (b'b', b'r') => return Some(Element::BR),
+            _ => {}
+        },
+        _ => {}
+    }
+    element_from_table(tok)
+}
+
+/// [`element_from_bytes`] for everything but the common organic symbols.
+fn element_from_table(tok: &[u8]) -> Option<Element> {
     use std::sync::OnceLock;
     static TABLE: OnceLock<Vec<Option<Element>>> = OnceLock::new();
     fn slot(a: u8, b: Option<u8>) -> Option<usize> {
@@ -327,4 +354,26 @@ pub fn read_str(text: &str, format: Format, opts: &ReadOptions) -> Result<Vec<Fr
         out.push(f);
     }
     Ok(out)
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn element_byte_match_agrees_with_table() {
+        let mut toks: Vec<Vec<u8>> = (0..=255u8).map(|a| vec![a]).collect();
+        for a in 0..=255u8 {
+            for b in [b'l', b'L', b'r', b'R', b'a', b'1', b' ', 0x4c | 0x80, a] {
+                toks.push(vec![a, b]);
+                toks.push(vec![b, a]);
+            }
+        }
+        for t in &toks {
+            assert_eq!(element_from_bytes(t), element_from_table(t), "{t:?}");
+        }
+        assert_eq!(element_from_bytes(b"cL"), Some(Element::CL));
+        assert_eq!(element_from_bytes(b"d"), Some(Element::H));
+        assert_eq!(element_from_bytes(b"@"), None);
+    }
 }

@@ -83,6 +83,111 @@ fn load8(s: &[u8], i: usize) -> Option<u64> {
     Some(u64::from_le_bytes(b))
 }
 
+/// Powers of ten as integers, 10^0 ..= 10^8.
+const POW10_U64: [u64; 9] = [
+    1,
+    10,
+    100,
+    1_000,
+    10_000,
+    100_000,
+    1_000_000,
+    10_000_000,
+    100_000_000,
+];
+
+/// The eight bytes of `line` from `i` as a little-endian word; near the end of
+/// the line, the last eight bytes shifted so that byte `i` is lowest and the
+/// bytes past the end read as 0 (a non-digit). `None` for lines shorter than 8.
+#[inline(always)]
+fn word_at(line: &[u8], i: usize) -> Option<u64> {
+    if let Some(w) = load8(line, i) {
+        return Some(w);
+    }
+    let n = line.len();
+    let w = load8(line, n.checked_sub(8)?)?;
+    // Here n - 8 < i <= n (or i > n, where nothing is left), so the shift is
+    // 8..=64 bits; 64 leaves nothing.
+    let past = i.checked_add(8)?.checked_sub(n)?;
+    Some(w.checked_shr(8 * past as u32).unwrap_or(0))
+}
+
+/// Number of leading ASCII digits (0..=8) of a little-endian word, and the
+/// value of those digits. Exact: the lowest non-digit byte is flagged
+/// correctly, because no carry or borrow reaches it from the digits below.
+#[inline(always)]
+fn leading_digits(w: u64) -> (usize, u64) {
+    let a = w.wrapping_add(0x4646_4646_4646_4646);
+    let d = w.wrapping_sub(0x3030_3030_3030_3030);
+    let k = (((a | d) & 0x8080_8080_8080_8080).trailing_zeros() / 8) as usize;
+    // The low k bytes of `d` are the digit values; moving them to the top
+    // makes the lower bytes leading zeros.
+    let top = d.checked_shl(8 * (8 - k) as u32).unwrap_or(0);
+    const MASK: u64 = 0x0000_00FF_0000_00FF;
+    const MUL1: u64 = 0x000F_4240_0000_0064;
+    const MUL2: u64 = 0x0000_2710_0000_0001;
+    let v = top.wrapping_mul(10).wrapping_add(top >> 8);
+    let v1 = (v & MASK).wrapping_mul(MUL1);
+    let v2 = ((v >> 16) & MASK).wrapping_mul(MUL2);
+    (k, (v1.wrapping_add(v2) >> 32) as u32 as u64)
+}
+
+#[inline(always)]
+fn is_blank_or_end(line: &[u8], i: usize) -> bool {
+    line.get(i).is_none_or(|&b| is_blank(b))
+}
+
+/// The common coordinate field at `line[i..]`: an optional sign, at most 7
+/// integer digits, optionally a point and at most 15 fraction digits, at least
+/// one digit in all, at most 19 digits and a significand of at most 2^53,
+/// followed by a blank or the end of the line. Returns the value and the index
+/// just past the field, or `None` for any other field (exponents included),
+/// which the caller then hands to [`parse_f64_field`]. Digits are taken eight
+/// at a time; the value is the same Clinger fast path as [`parse_f64`], so it
+/// is exactly what `str::parse::<f64>` gives.
+#[inline(always)]
+pub(crate) fn plain_decimal_at(line: &[u8], mut i: usize) -> Option<(f64, usize)> {
+    let neg = match line.get(i) {
+        Some(b'-') => {
+            i += 1;
+            true
+        }
+        Some(b'+') => {
+            i += 1;
+            false
+        }
+        _ => false,
+    };
+    let (k_int, mut mant) = leading_digits(word_at(line, i)?);
+    if k_int == 8 {
+        return None;
+    }
+    i += k_int;
+    let mut frac = 0usize;
+    if line.get(i) == Some(&b'.') {
+        i += 1;
+        let (k, v) = leading_digits(word_at(line, i)?);
+        mant = mant * POW10_U64[k] + v;
+        i += k;
+        frac = k;
+        if k == 8 {
+            let (k2, v2) = leading_digits(word_at(line, i)?);
+            if k2 == 8 || k_int + 8 + k2 > 19 {
+                return None;
+            }
+            mant = mant.wrapping_mul(POW10_U64[k2]).wrapping_add(v2);
+            i += k2;
+            frac += k2;
+        }
+    }
+    if k_int + frac == 0 || mant > MAX_EXACT || !is_blank_or_end(line, i) {
+        return None;
+    }
+    let m = mant as f64;
+    let v = if frac == 0 { m } else { m / POW10[frac] };
+    Some((if neg { -v } else { v }, i))
+}
+
 /// The Clinger fast path on a whole token; `None` when the token is not a
 /// plain decimal that the fast path can round correctly.
 #[inline]
@@ -326,6 +431,69 @@ mod tests {
         assert!(parse_f64_field(b"nan ").is_some_and(|(v, n)| v.is_nan() && n == 3));
         assert_eq!(parse_f64_field(b"1.5x 2"), None);
         assert_eq!(parse_f64_field(b"1e400 2"), Some((f64::INFINITY, 5)));
+    }
+
+    /// `plain_decimal_at` must agree with `parse_f64_field` (and so with
+    /// `str::parse::<f64>`) wherever it gives a value.
+    fn plain_agrees(line: &[u8], i: usize) {
+        if let Some((v, end)) = plain_decimal_at(line, i) {
+            let rest = &line[i..];
+            let (w, len) = parse_f64_field(rest).expect("generic parser accepts it");
+            assert_eq!(
+                (v.to_bits(), end),
+                (w.to_bits(), i + len),
+                "{line:?} at {i}"
+            );
+            let tok = std::str::from_utf8(&rest[..len]).unwrap();
+            assert_eq!(v.to_bits(), tok.parse::<f64>().unwrap().to_bits(), "{tok}");
+        }
+    }
+
+    #[test]
+    fn plain_decimal_fast_path() {
+        let line = b"C     2.665123     0.572493    -0.778180";
+        assert_eq!(plain_decimal_at(line, 6), Some((2.665123, 14)));
+        assert_eq!(plain_decimal_at(line, 19), Some((0.572493, 27)));
+        assert_eq!(plain_decimal_at(line, 31), Some((-0.77818, 40)));
+        assert_eq!(plain_decimal_at(b"H 1 2 3", 2), None); // line under 8 bytes
+        assert_eq!(plain_decimal_at(b"H 1.5e3 2 3", 2), None);
+        assert_eq!(plain_decimal_at(b"H 1,5 2 3 4", 2), None);
+        assert_eq!(plain_decimal_at(b"H 12345678.5 2 3", 2), None);
+        assert_eq!(
+            plain_decimal_at(b"H 1.234567890123456 0", 2),
+            Some((1.234567890123456, 19))
+        );
+        assert_eq!(plain_decimal_at(b"H -. 00000000", 2), None);
+        assert_eq!(plain_decimal_at(b"H +.5\t0000000", 2), Some((0.5, 5)));
+        assert_eq!(plain_decimal_at(b"H 00000000", 10), None);
+        for line in [
+            &b"O 0.0 0.0 0.117"[..],
+            b"X 9007199254740993 1",
+            b"X 0.9007199254740993 1",
+            b"X 1234567.123456789012 1",
+            b"X 1.00000000000000000000000 1",
+            b"X 1. 2",
+            b"X -0.000 2",
+            b"X 123.\xff 2",
+        ] {
+            for i in 0..=line.len() + 1 {
+                plain_agrees(line, i);
+            }
+        }
+    }
+
+    proptest::proptest! {
+        #[test]
+        fn plain_decimal_matches_generic(
+            pre in "[ \t]{0,9}",
+            num in "[-+]?[0-9]{0,9}(\\.[0-9]{0,18})?([eE][-+]?[0-9]{1,2})?",
+            post in "([ \t\r,.a-z][ -~]{0,12})?",
+        ) {
+            let line = format!("{pre}{num}{post}");
+            for i in 0..=line.len() {
+                plain_agrees(line.as_bytes(), i);
+            }
+        }
     }
 
     #[test]

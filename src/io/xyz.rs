@@ -24,7 +24,7 @@ use std::io::{BufRead, Write};
 use std::path::PathBuf;
 
 use super::lines::{show, trim, Lines};
-use super::number::{number_prefix_len, parse_f64, parse_f64_field};
+use super::number::{number_prefix_len, parse_f64, parse_f64_field, plain_decimal_at};
 use super::{element_from_bytes, finish_names, Frame, FrameReader, ReadOptions};
 use crate::error::{Error, Result};
 use crate::geometry::Vec3;
@@ -52,6 +52,31 @@ impl XyzReader {
 #[inline]
 fn is_blank(b: u8) -> bool {
     b == b' ' || b == b'\t' || b == b'\r' || b == b'\x0c' || b == b'\x0b'
+}
+
+/// The index of the first non-blank byte of `line` at or after `i` (or the
+/// line length). Runs of spaces are skipped eight bytes at a time.
+#[inline(always)]
+fn skip_blanks(line: &[u8], mut i: usize) -> usize {
+    const SPACES: u64 = 0x2020_2020_2020_2020;
+    const LOW7: u64 = 0x7f7f_7f7f_7f7f_7f7f;
+    while let Some(c) = line.get(i..i + 8) {
+        let mut w = [0u8; 8];
+        w.copy_from_slice(c);
+        let x = u64::from_le_bytes(w) ^ SPACES;
+        // High bit of each byte set where that byte is not a space (exact per
+        // byte: no carry crosses bytes).
+        let t = (((x & LOW7).wrapping_add(LOW7)) | x) & !LOW7;
+        if t != 0 {
+            i += (t.trailing_zeros() / 8) as usize;
+            break;
+        }
+        i += 8;
+    }
+    while i < line.len() && is_blank(line[i]) {
+        i += 1;
+    }
+    i
 }
 
 /// The next blank-separated field of `line` starting at `*i`; empty at the end.
@@ -177,8 +202,11 @@ impl FrameReader for XyzReader {
             };
             let mut xyz = [0.0f64; 3];
             for (axis, slot) in xyz.iter_mut().enumerate() {
-                while i < line.len() && is_blank(line[i]) {
-                    i += 1;
+                i = skip_blanks(line, i);
+                if let Some((v, end)) = plain_decimal_at(line, i) {
+                    *slot = v;
+                    i = end;
+                    continue;
                 }
                 let rest = line.get(i..).unwrap_or_default();
                 *slot =
