@@ -181,7 +181,7 @@ pub(crate) fn finish_names(names: &mut Vec<String>, set: usize, n: usize) {
 /// (case-insensitive; `D`, `T` are hydrogen). Uses a lookup table built once,
 /// so it is cheap enough for the per-atom hot path of the readers; the common
 /// organic symbols are matched byte by byte first, without the table.
-#[inline]
+#[inline(always)]
 pub(crate) fn element_from_bytes(tok: &[u8]) -> Option<Element> {
     // `x | 0x20` lower-cases ASCII letters and maps no other byte to a letter.
     match *tok {

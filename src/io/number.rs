@@ -142,8 +142,8 @@ fn is_blank_or_end(line: &[u8], i: usize) -> bool {
 /// one digit in all, at most 19 digits and a significand of at most 2^53,
 /// followed by a blank or the end of the line. Returns the value and the index
 /// just past the field, or `None` for any other field (exponents included),
-/// which the caller then hands to [`parse_f64_field`]. Digits are taken eight
-/// at a time; the value is the same Clinger fast path as [`parse_f64`], so it
+/// which the caller then hands to [`parse_f64_field`]. Fraction digits are
+/// taken eight at a time; the value is the same Clinger fast path as [`parse_f64`], so it
 /// is exactly what `str::parse::<f64>` gives.
 #[inline(always)]
 pub(crate) fn plain_decimal_at(line: &[u8], mut i: usize) -> Option<(f64, usize)> {
@@ -158,11 +158,21 @@ pub(crate) fn plain_decimal_at(line: &[u8], mut i: usize) -> Option<(f64, usize)
         }
         _ => false,
     };
-    let (k_int, mut mant) = leading_digits(word_at(line, i)?);
-    if k_int == 8 {
+    // Integer parts of coordinates are short: a byte loop beats a word here.
+    let int_start = i;
+    let mut mant: u64 = 0;
+    while let Some(&b) = line.get(i) {
+        let d = b.wrapping_sub(b'0');
+        if d > 9 {
+            break;
+        }
+        mant = mant.wrapping_mul(10).wrapping_add(d as u64);
+        i += 1;
+    }
+    let k_int = i - int_start;
+    if k_int > 7 {
         return None;
     }
-    i += k_int;
     let mut frac = 0usize;
     if line.get(i) == Some(&b'.') {
         i += 1;
@@ -455,7 +465,8 @@ mod tests {
         assert_eq!(plain_decimal_at(line, 6), Some((2.665123, 14)));
         assert_eq!(plain_decimal_at(line, 19), Some((0.572493, 27)));
         assert_eq!(plain_decimal_at(line, 31), Some((-0.77818, 40)));
-        assert_eq!(plain_decimal_at(b"H 1 2 3", 2), None); // line under 8 bytes
+        assert_eq!(plain_decimal_at(b"H 1 2 3", 2), Some((1.0, 3)));
+        assert_eq!(plain_decimal_at(b"H 1.5 2", 2), None); // line under 8 bytes
         assert_eq!(plain_decimal_at(b"H 1.5e3 2 3", 2), None);
         assert_eq!(plain_decimal_at(b"H 1,5 2 3 4", 2), None);
         assert_eq!(plain_decimal_at(b"H 12345678.5 2 3", 2), None);
