@@ -1,5 +1,6 @@
 //! Benchmark (not a test): read a multi-frame XYZ trajectory, perceive the
-//! topology once, check every frame against it, and compute every vicinal
+//! topology once, check every frame against it (atoms and bonding; atoms
+//! only with `--atoms-only`), and compute every vicinal
 //! H–X–Y–H dihedral in every frame. In the same run, a plain line scan of the
 //! same file (counting newlines over 1 MiB reads) gives the I/O baseline, and
 //! the ratio of the two throughputs is printed.
@@ -39,8 +40,10 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let path = PathBuf::from(
         std::env::args()
             .nth(1)
-            .ok_or("usage: bench_dihedrals FILE.xyz")?,
+            .ok_or("usage: bench_dihedrals FILE.xyz [--atoms-only]")?,
     );
+    // --atoms-only: check atoms and coordinates per frame but not bonding.
+    let check_bonding = std::env::args().nth(2).as_deref() != Some("--atoms-only");
     let size = std::fs::metadata(&path)?.len() as f64;
 
     let t0 = Instant::now();
@@ -48,7 +51,11 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let t_scan = t0.elapsed().as_secs_f64();
 
     let t1 = Instant::now();
-    let mut src = EnsembleSource::new(vec![path.clone()], SourceOptions::default())?;
+    let opts = SourceOptions {
+        check_bonding,
+        ..SourceOptions::default()
+    };
+    let mut src = EnsembleSource::new(vec![path.clone()], opts)?;
     let mut frame = Frame::default();
     let mut pairs = Vec::new();
     let mut n_frames = 0usize;

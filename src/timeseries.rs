@@ -479,8 +479,8 @@ fn analyze_levels(levels: &[Level], stats: &RunningStats) -> BlockingAnalysis {
     let mean = stats.mean().unwrap_or(0.0);
     let std_dev = stats.std_dev().unwrap_or(0.0);
     let naive_sem = stats.naive_sem().unwrap_or(0.0);
-    let mut out = Vec::new();
-    let mut ratios = Vec::new();
+    let mut out = Vec::with_capacity(levels.len());
+    let mut ratios = Vec::with_capacity(levels.len());
     for (k, lv) in levels.iter().enumerate() {
         if lv.n < 2 {
             break;

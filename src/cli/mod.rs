@@ -74,6 +74,7 @@ impl InputArgs {
             read: ReadOptions {
                 energy_key: self.energy_key.clone(),
             },
+            check_bonding: true,
         };
         Ok(EnsembleSource::new(self.files.clone(), opts)?)
     }

@@ -11,12 +11,25 @@ use crate::topology::perceive::{self, FrameChecker};
 use crate::topology::Topology;
 
 /// How to read the files of an ensemble.
-#[derive(Debug, Clone, Default)]
+#[derive(Debug, Clone)]
 pub struct SourceOptions {
     /// Format for every file; `None` chooses by extension.
     pub format: Option<Format>,
     /// Reader options (energy key).
     pub read: ReadOptions,
+    /// Check every later conformer's bonding against the first (default). When
+    /// false only the atoms (count, elements, finite coordinates) are checked.
+    pub check_bonding: bool,
+}
+
+impl Default for SourceOptions {
+    fn default() -> Self {
+        SourceOptions {
+            format: None,
+            read: ReadOptions::default(),
+            check_bonding: true,
+        }
+    }
 }
 
 /// A stream of conformers over several files that form one ensemble.
@@ -92,7 +105,8 @@ impl EnsembleSource {
                     self.checker = Some(FrameChecker::new(&top));
                     self.topology = Some(top);
                 }
-                Some(checker) => checker.check(frame, self.count)?,
+                Some(checker) if self.opts.check_bonding => checker.check(frame, self.count)?,
+                Some(checker) => checker.check_atoms(frame, self.count)?,
             }
             return Ok(true);
         }
