@@ -154,6 +154,11 @@ impl ModelArgs {
                 if !(self.temperature.is_finite() && self.temperature > 0.0) {
                     bail!("the temperature must be a positive number of kelvin");
                 }
+                if let Some(w) = self.window {
+                    if !(w.is_finite() && w >= 0.0) {
+                        bail!("--window takes a non-negative energy in kcal/mol, got {w}");
+                    }
+                }
                 Ok(Weighting::Boltzmann {
                     temperature_k: self.temperature,
                     unit,
