@@ -423,7 +423,7 @@ impl Plot {
             legend.push((sc.label.clone(), col, false));
         }
         let _ = writeln!(s, "</g>");
-        // Legend, top right inside the plot area.
+        // Legend, inside the plot area in its emptiest corner.
         let shown: Vec<_> = legend.iter().filter(|(l, _, _)| !l.is_empty()).collect();
         if !shown.is_empty() {
             let lw = shown
@@ -433,12 +433,47 @@ impl Plot {
                 .unwrap_or(0) as f64
                 * 7.0
                 + 40.0;
-            let x0 = left + pw - lw - 8.0;
-            let y0 = top + 8.0;
+            let lh = shown.len() as f64 * 16.0 + 6.0;
+            // The corner whose box covers the fewest data points (ties: top
+            // right, top left, bottom right, bottom left).
+            let corners = [
+                (left + pw - lw - 8.0, top + 8.0),
+                (left + 8.0, top + 8.0),
+                (left + pw - lw - 8.0, top + ph - lh - 8.0),
+                (left + 8.0, top + ph - lh - 8.0),
+            ];
+            let mut pts: Vec<(f64, f64)> = Vec::new();
+            for l in &self.lines {
+                pts.extend(
+                    l.points
+                        .iter()
+                        .filter(|p| p.0.is_finite() && p.1.is_finite())
+                        .map(|p| (sx(p.0), sy(p.1))),
+                );
+            }
+            for sc in &self.scatters {
+                pts.extend(
+                    sc.points
+                        .iter()
+                        .filter(|p| p.x.is_finite() && p.y.is_finite())
+                        .map(|p| (sx(p.x), sy(p.y))),
+                );
+            }
+            let covered = |&(cx, cy): &(f64, f64)| {
+                pts.iter()
+                    .filter(|&&(x, y)| {
+                        x >= cx - 6.0 && x <= cx + lw + 6.0 && y >= cy - 6.0 && y <= cy + lh + 6.0
+                    })
+                    .count()
+            };
+            let (x0, y0) = corners
+                .iter()
+                .min_by_key(|c| covered(c))
+                .copied()
+                .unwrap_or(corners[0]);
             let _ = writeln!(
                 s,
-                r##"<rect x="{x0:.1}" y="{y0:.1}" width="{lw:.1}" height="{:.1}" fill="white" fill-opacity="0.85" stroke="#999999"/>"##,
-                shown.len() as f64 * 16.0 + 6.0
+                r##"<rect x="{x0:.1}" y="{y0:.1}" width="{lw:.1}" height="{lh:.1}" fill="white" fill-opacity="0.85" stroke="#999999"/>"##
             );
             for (i, (label, col, is_line)) in shown.iter().enumerate() {
                 let y = y0 + 14.0 + i as f64 * 16.0;
