@@ -422,7 +422,7 @@ pub fn plot_running_averages(r: &TrajectoryReport, chosen: &[usize]) -> String {
         None => ("frames used", 1.0),
     };
     let mut p = Plot::new(
-        "Running average of 3J(H,H) with ± blocked standard error",
+        "Running average of 3J(H,H); dashed: ± blocked standard error",
         x_label,
         "3J(H,H) (Hz)",
     );
@@ -444,12 +444,13 @@ pub fn plot_running_averages(r: &TrajectoryReport, chosen: &[usize]) -> String {
         };
         p.line(LineSeries::new(c.label.clone(), pts(0.0)).color(colour));
         p.line(
-            LineSeries::new(format!("{} + error", c.label), pts(1.0))
+            // Unlabelled: the legend names each coupling once.
+            LineSeries::new(String::new(), pts(1.0))
                 .color(colour)
                 .dashed(),
         );
         p.line(
-            LineSeries::new(format!("{} - error", c.label), pts(-1.0))
+            LineSeries::new(String::new(), pts(-1.0))
                 .color(colour)
                 .dashed(),
         );
