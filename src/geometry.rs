@@ -18,22 +18,56 @@ const COLLINEAR_EPS: f64 = 1e-8;
 /// is collinear (or two atoms coincide), where the angle is undefined.
 #[inline]
 pub fn dihedral(a: &Vec3, b: &Vec3, c: &Vec3, d: &Vec3) -> Option<f64> {
-    let b1 = b - a;
-    let b2 = c - b;
-    let b3 = d - c;
-    let n1 = b1.cross(&b2);
-    let n2 = b2.cross(&b3);
-    let b2n2 = b2.norm_squared();
-    if n1.norm_squared() <= COLLINEAR_EPS * b1.norm_squared() * b2n2
-        || n2.norm_squared() <= COLLINEAR_EPS * b3.norm_squared() * b2n2
-        || b2n2 == 0.0
-    {
-        return None;
+    dihedral_xy(a, b, c, d).map(|(y, x, _)| y.atan2(x))
+}
+
+/// The dihedral angle τ(a, b, c, d) of [`dihedral`] as the pair (y, x, r)
+/// with τ = atan2(y, x) and r = √(x² + y²) > 0, so that cos τ = x/r and
+/// sin τ = y/r without an atan2 (y and x in Å⁶, r likewise). `None` where
+/// [`dihedral`] is `None`.
+#[inline]
+pub fn dihedral_xy(a: &Vec3, b: &Vec3, c: &Vec3, d: &Vec3) -> Option<(f64, f64, f64)> {
+    DihedralParts::new(a, b, c, d).map(|p| (p.y, p.x, p.r))
+}
+
+/// The intermediate vectors of the dihedral τ(a, b, c, d), for callers that
+/// need more than the angle (the Haasnoot–de Leeuw–Altona orientation signs
+/// use the two plane normals): n1 = (b − a) × (c − b), n2 = (c − b) × (d − c),
+/// and τ = atan2(y, x) with r = √(x² + y²) as in [`dihedral_xy`].
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct DihedralParts {
+    pub(crate) n1: Vec3,
+    pub(crate) n2: Vec3,
+    pub(crate) y: f64,
+    pub(crate) x: f64,
+    pub(crate) r: f64,
+}
+
+impl DihedralParts {
+    /// `None` where [`dihedral`] is `None`.
+    #[inline(always)]
+    pub(crate) fn new(a: &Vec3, b: &Vec3, c: &Vec3, d: &Vec3) -> Option<DihedralParts> {
+        let b1 = b - a;
+        let b2 = c - b;
+        let b3 = d - c;
+        let n1 = b1.cross(&b2);
+        let n2 = b2.cross(&b3);
+        let b2n2 = b2.norm_squared();
+        if b2n2 == 0.0
+            || n1.norm_squared() <= COLLINEAR_EPS * b1.norm_squared() * b2n2
+            || n2.norm_squared() <= COLLINEAR_EPS * b3.norm_squared() * b2n2
+        {
+            return None;
+        }
+        // atan2(|b2| b1·(b2×b3), (b1×b2)·(b2×b3)); both scaled by |b2| alike.
+        let y = b1.dot(&n2) * b2n2.sqrt();
+        let x = n1.dot(&n2);
+        let r = (x * x + y * y).sqrt();
+        if !(r > 0.0 && r.is_finite()) {
+            return None;
+        }
+        Some(DihedralParts { n1, n2, y, x, r })
     }
-    // atan2(|b2| b1·(b2×b3), (b1×b2)·(b2×b3)); both scaled by |b2| alike.
-    let y = b1.dot(&n2) * b2n2.sqrt();
-    let x = n1.dot(&n2);
-    Some(y.atan2(x))
 }
 
 /// Angle a–b–c at b in radians, in [0, π]; `None` if either bond has zero length.

@@ -60,6 +60,27 @@ impl Rotamer {
         })
     }
 
+    /// Classifies the dihedral angle φ = atan2(y, x) given as the pair
+    /// (y, x) with r = √(x² + y²) > 0 (see [`crate::geometry::dihedral_xy`]),
+    /// without the arctangent: anti where cos φ < −1/2 (|φ| > 120°), else
+    /// gauche+ for sin φ ≥ 0 and gauche− for sin φ < 0. The same windows as
+    /// [`classify`](Self::classify), up to rounding at their edges. `None` for
+    /// non-finite input.
+    #[inline]
+    pub fn classify_xy(y: f64, x: f64, r: f64) -> Option<Rotamer> {
+        if !(y.is_finite() && x.is_finite() && r.is_finite() && r > 0.0) {
+            return None;
+        }
+        // φ = +120° is anti and φ = −120° gauche−, as in `classify`.
+        Some(if 2.0 * x < -r || (2.0 * x == -r && y >= 0.0) {
+            Rotamer::Anti
+        } else if y >= 0.0 {
+            Rotamer::GauchePlus
+        } else {
+            Rotamer::GaucheMinus
+        })
+    }
+
     /// 0 for gauche+, 1 for anti, 2 for gauche−.
     pub fn index(self) -> u32 {
         match self {
@@ -333,6 +354,28 @@ impl StateTracker {
 #[cfg(test)]
 mod tests {
     use super::*;
+
+    #[test]
+    fn rotamer_windows_from_sin_cos_agree_with_the_angle() {
+        // Every 0.1° except within 1e-9 rad of a window edge.
+        for k in -3600..3600 {
+            let phi = (k as f64 * 0.1 + 0.05).to_radians();
+            let r = 2.5;
+            let (y, x) = (r * phi.sin(), r * phi.cos());
+            assert_eq!(
+                Rotamer::classify_xy(y, x, (x * x + y * y).sqrt()),
+                Rotamer::classify(phi),
+                "phi = {} deg",
+                phi.to_degrees()
+            );
+        }
+        assert_eq!(
+            Rotamer::classify_xy(0.0, 1.0, 1.0),
+            Some(Rotamer::GauchePlus)
+        );
+        assert_eq!(Rotamer::classify_xy(0.0, -1.0, 1.0), Some(Rotamer::Anti));
+        assert_eq!(Rotamer::classify_xy(f64::NAN, 1.0, 1.0), None);
+    }
 
     #[test]
     fn rotamer_windows() {

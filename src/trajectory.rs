@@ -48,7 +48,7 @@ use crate::atomref;
 use crate::ensemble::source::EnsembleSource;
 use crate::error::{Error, Result};
 use crate::fragments::{self, FragmentKind};
-use crate::geometry::{dihedral, Vec3};
+use crate::geometry::{dihedral_xy, Vec3};
 use crate::io::dcd::DcdReader;
 use crate::io::{self, BondOrder, Format, Frame, FrameReader, ReadOptions};
 use crate::karplus::{self, ModelChoice, NotEvaluated, ParamLibrary, PreparedPair};
@@ -610,8 +610,8 @@ impl BondWatch {
     fn classify(&self, coords: &[Vec3]) -> u32 {
         let [a, x, y, b] = self.atoms;
         match (coords.get(a), coords.get(x), coords.get(y), coords.get(b)) {
-            (Some(pa), Some(px), Some(py), Some(pb)) => dihedral(pa, px, py, pb)
-                .and_then(Rotamer::classify)
+            (Some(pa), Some(px), Some(py), Some(pb)) => dihedral_xy(pa, px, py, pb)
+                .and_then(|(y, x, r)| Rotamer::classify_xy(y, x, r))
                 .map_or(STATE_UNDEFINED, Rotamer::index),
             _ => STATE_UNDEFINED,
         }

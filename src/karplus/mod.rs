@@ -35,7 +35,7 @@ use std::collections::HashMap;
 use crate::elements::Element;
 use crate::error::{Error, Result};
 use crate::fragments::{FragmentKind, VicinalPair};
-use crate::geometry::{dihedral, Vec3};
+use crate::geometry::{dihedral, DihedralParts, Vec3};
 use crate::topology::{Hybridization, Topology};
 
 pub use curve::{curve, curve_svg, write_curve_csv, PatternSubstituent};
@@ -214,33 +214,6 @@ fn in_six_ring(top: &Topology, a: usize, b: usize) -> bool {
     }
     let mut path = vec![a, b];
     dfs(top, b, a, 5, &mut path)
-}
-
-/// The dihedral τ(a, b, c, d) (IUPAC sign, as [`crate::geometry::dihedral`])
-/// as (y, x) with τ = atan2(y, x), cos τ = x/r, sin τ = y/r, r = √(x² + y²) > 0;
-/// `None` where the angle is undefined.
-#[inline]
-fn dihedral_xy(a: &Vec3, b: &Vec3, c: &Vec3, d: &Vec3) -> Option<(f64, f64, f64)> {
-    let b1 = b - a;
-    let b2 = c - b;
-    let b3 = d - c;
-    let n1 = b1.cross(&b2);
-    let n2 = b2.cross(&b3);
-    let b2n2 = b2.norm_squared();
-    const EPS: f64 = 1e-8; // as geometry::dihedral
-    if b2n2 == 0.0
-        || n1.norm_squared() <= EPS * b1.norm_squared() * b2n2
-        || n2.norm_squared() <= EPS * b3.norm_squared() * b2n2
-    {
-        return None;
-    }
-    let y = b1.dot(&n2) * b2n2.sqrt();
-    let x = n1.dot(&n2);
-    let r = (x * x + y * y).sqrt();
-    if !(r > 0.0 && r.is_finite()) {
-        return None;
-    }
-    Some((y, x, r))
 }
 
 /// True if the C5 of a hexopyranose has the D-series configuration (R):
@@ -602,18 +575,18 @@ impl PreparedPair {
             &coords[self.y],
             &coords[self.h2],
         );
-        let (dy, dx, r) = dihedral_xy(h1, x, y, h2)
+        let parts = DihedralParts::new(h1, x, y, h2)
             .ok_or_else(|| self.fail("H–X–Y–H dihedral undefined (collinear atoms)"))?;
+        let (dy, dx, r) = (parts.y, parts.x, parts.r);
         let (cos_phi, sin_phi) = (dx / r, dy / r);
         let j = match &self.kernel {
             Kernel::Hla { p, subs, n } => {
                 // The same sum as equations::hla_sin_cos, accumulated in place.
                 let c = cos_phi;
                 let mut j = p.p1 * c * c + p.p2 * c + p.p3;
-                // Bond vectors from each carbon, shared by its substituents.
-                let (hx, yx) = (h1 - x, y - x);
-                let (hy, xy) = (h2 - y, x - y);
-                let (nx, ny) = (yx.cross(&hx), xy.cross(&hy));
+                // The normals of the dihedral's planes serve the substituents
+                // of each carbon: n1 = (X − H1) × (Y − X) = (Y − X) × (H1 − X)
+                // on X, and −n2 = (X − Y) × (H2 − Y) on Y.
                 for s in subs.iter().take(*n) {
                     let sp = coords.get(s.atom).ok_or_else(|| {
                         self.fail("coordinates do not cover every atom of the fragment")
@@ -622,9 +595,9 @@ impl PreparedPair {
                     //   = sign[(S − Ca) · ((Cb − Ca) × (Ha − Ca))], a triple
                     // product rotated so the cross product is shared.
                     let t = if s.on_x {
-                        (sp - x).dot(&nx)
+                        (sp - x).dot(&parts.n1)
                     } else {
-                        (sp - y).dot(&ny)
+                        -(sp - y).dot(&parts.n2)
                     };
                     let xi = if t < 0.0 { -1.0 } else { 1.0 };
                     let u = c * s.cos_a - xi * sin_phi * s.sin_a;

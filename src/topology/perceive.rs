@@ -158,6 +158,8 @@ pub struct FrameChecker {
     /// squared distance below which the pair needs a closer look (a new bond,
     /// or duplicate atoms). Empty for large molecules, which use the grid.
     pair_alarm2: Vec<f64>,
+    /// Per-frame scratch of the fast path: x, y and z as three arrays.
+    soa: Vec<f64>,
 }
 
 impl FrameChecker {
@@ -173,6 +175,7 @@ impl FrameChecker {
             grid: GridScan::default(),
             sorted_bonds: Vec::new(),
             pair_alarm2: pair_alarms(top),
+            soa: Vec::new(),
         }
     }
 
@@ -214,13 +217,16 @@ impl FrameChecker {
     /// Checks bonding only (and duplicate atoms); assumes
     /// [`check_atoms`](Self::check_atoms) passed.
     pub fn check_bonds(&mut self, frame: &Frame, conformer: usize) -> Result<()> {
-        let top = &self.top;
         let coords = &frame.coords;
+        if self.top.bond_source == BondSource::Distance
+            && !self.pair_alarm2.is_empty()
+            && self.quick_pairs_ok(coords)
+        {
+            return self.check_bond_lengths(frame, conformer);
+        }
+        let top = &self.top;
         match top.bond_source {
             BondSource::Distance => {
-                if !self.pair_alarm2.is_empty() && self.quick_pairs_ok(coords) {
-                    return self.check_bond_lengths(frame, conformer);
-                }
                 for b in &top.bonds {
                     let d = (coords[b.a] - coords[b.b]).norm();
                     let cut = self.radii[b.a] + self.radii[b.b] + BOND_TOLERANCE_A;
@@ -292,19 +298,36 @@ impl FrameChecker {
     /// Fast path for small molecules: true when no pair comes closer than its
     /// alarm distance (no new bond, no duplicate atoms). When it is false the
     /// full scan runs and names the atoms.
-    fn quick_pairs_ok(&self, coords: &[Vec3]) -> bool {
+    fn quick_pairs_ok(&mut self, coords: &[Vec3]) -> bool {
         let n = coords.len();
+        // Coordinates as three arrays and no early exit, so that the inner
+        // loop over j > i can run in vector lanes.
+        let soa = &mut self.soa;
+        soa.clear();
+        soa.extend(coords.iter().map(|c| c.x));
+        soa.extend(coords.iter().map(|c| c.y));
+        soa.extend(coords.iter().map(|c| c.z));
+        let (xs, rest) = soa.split_at(n);
+        let (ys, zs) = rest.split_at(n);
         let mut k = 0;
+        let mut close = false;
         for i in 0..n {
-            let ci = coords[i];
-            for cj in &coords[i + 1..] {
-                if (cj - ci).norm_squared() < self.pair_alarm2[k] {
-                    return false;
-                }
-                k += 1;
+            let (xi, yi, zi) = (xs[i], ys[i], zs[i]);
+            let m = n - i - 1;
+            let mut hit = false;
+            for (((&x, &y), &z), &a) in xs[i + 1..]
+                .iter()
+                .zip(&ys[i + 1..])
+                .zip(&zs[i + 1..])
+                .zip(&self.pair_alarm2[k..k + m])
+            {
+                let (dx, dy, dz) = (x - xi, y - yi, z - zi);
+                hit |= dx * dx + dy * dy + dz * dz < a;
             }
+            close |= hit;
+            k += m;
         }
-        true
+        !close
     }
 
     /// Every bond of the topology still within its cutoff.
