@@ -103,6 +103,23 @@ impl Lines {
         }
     }
 
+    /// The buffered input from the start of the next line on (possibly
+    /// empty, possibly ending inside a line), for parsers that read a line in
+    /// place and then [`consume`](Self::consume) it.
+    #[inline(always)]
+    pub(crate) fn rest(&self) -> &[u8] {
+        self.buf.get(self.pos..self.end).unwrap_or_default()
+    }
+
+    /// Counts `len` bytes of [`rest`](Self::rest), which must be one whole
+    /// line with its `\n`, as read (as [`Lines::next_line`] would have).
+    #[inline(always)]
+    pub(crate) fn consume(&mut self, len: usize) {
+        self.prev = Some((self.pos, self.line_no));
+        self.pos += len;
+        self.line_no += 1;
+    }
+
     /// Makes the last line returned by [`Lines::next_line`] the next one again.
     /// Only one line can be pushed back.
     pub(crate) fn push_back(&mut self) {

@@ -146,7 +146,22 @@ fn is_blank_or_end(line: &[u8], i: usize) -> bool {
 /// taken eight at a time; the value is the same Clinger fast path as [`parse_f64`], so it
 /// is exactly what `str::parse::<f64>` gives.
 #[inline(always)]
-pub(crate) fn plain_decimal_at(line: &[u8], mut i: usize) -> Option<(f64, usize)> {
+pub(crate) fn plain_decimal_at(line: &[u8], i: usize) -> Option<(f64, usize)> {
+    plain_decimal_ending::<false>(line, i)
+}
+
+/// [`plain_decimal_at`] on a buffer that runs on past the end of the line:
+/// the field may also be followed by the line's `\n`.
+#[inline(always)]
+pub(crate) fn plain_decimal_before_newline(buf: &[u8], i: usize) -> Option<(f64, usize)> {
+    plain_decimal_ending::<true>(buf, i)
+}
+
+#[inline(always)]
+fn plain_decimal_ending<const NEWLINE_ENDS: bool>(
+    line: &[u8],
+    mut i: usize,
+) -> Option<(f64, usize)> {
     let neg = match line.get(i) {
         Some(b'-') => {
             i += 1;
@@ -190,7 +205,8 @@ pub(crate) fn plain_decimal_at(line: &[u8], mut i: usize) -> Option<(f64, usize)
             frac += k2;
         }
     }
-    if k_int + frac == 0 || mant > MAX_EXACT || !is_blank_or_end(line, i) {
+    let ends = is_blank_or_end(line, i) || (NEWLINE_ENDS && line.get(i) == Some(&b'\n'));
+    if k_int + frac == 0 || mant > MAX_EXACT || !ends {
         return None;
     }
     let m = mant as f64;

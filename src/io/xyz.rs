@@ -24,7 +24,9 @@ use std::io::{BufRead, Write};
 use std::path::PathBuf;
 
 use super::lines::{show, trim, Lines};
-use super::number::{number_prefix_len, parse_f64, parse_f64_field, plain_decimal_at};
+use super::number::{
+    number_prefix_len, parse_f64, parse_f64_field, plain_decimal_at, plain_decimal_before_newline,
+};
 use super::{element_from_bytes, finish_names, Frame, FrameReader, ReadOptions};
 use crate::error::{Error, Result};
 use crate::geometry::Vec3;
@@ -168,6 +170,12 @@ impl FrameReader for XyzReader {
         frame.elements.reserve(n);
         frame.coords.reserve(n);
         for k in 0..n {
+            if let Some((el, xyz, len)) = plain_atom_line(self.lines.rest()) {
+                self.lines.consume(len);
+                frame.elements.push(el);
+                frame.coords.push(xyz);
+                continue;
+            }
             let (no, line) = match self.lines.next_line()? {
                 Some(x) => x,
                 None => {
@@ -220,6 +228,35 @@ impl FrameReader for XyzReader {
         self.frames += 1;
         Ok(true)
     }
+}
+
+/// The common atom line, read in place from the buffered input `buf` in one
+/// pass: blanks, an element symbol of one or two letters, three plain
+/// decimals ([`plain_decimal_at`]) separated by blanks, blanks, and the `\n`.
+/// Returns the element, the coordinates in Å and the length of the line with
+/// its `\n`; `None` for anything else (extra columns, exponents, atomic
+/// numbers, a line not wholly buffered, bad input), which the general path
+/// then reads and, where needed, reports.
+#[inline(always)]
+fn plain_atom_line(buf: &[u8]) -> Option<(super::Element, Vec3, usize)> {
+    let mut i = skip_blanks(buf, 0);
+    let start = i;
+    while buf.get(i).is_some_and(u8::is_ascii_alphabetic) {
+        i += 1;
+    }
+    if i == start || i - start > 2 || !buf.get(i).copied().is_some_and(is_blank) {
+        return None;
+    }
+    let el = element_from_bytes(&buf[start..i])?;
+    let mut xyz = [0.0f64; 3];
+    for slot in &mut xyz {
+        i = skip_blanks(buf, i);
+        let (v, end) = plain_decimal_before_newline(buf, i)?;
+        *slot = v;
+        i = end;
+    }
+    i = skip_blanks(buf, i);
+    (buf.get(i) == Some(&b'\n')).then(|| (el, Vec3::new(xyz[0], xyz[1], xyz[2]), i + 1))
 }
 
 /// Parses the coordinate field at the start of `rest` (`axis` 0, 1, 2 for x,
