@@ -314,15 +314,12 @@ impl FrameChecker {
         for i in 0..n {
             let (xi, yi, zi) = (xs[i], ys[i], zs[i]);
             let m = n - i - 1;
+            let (xj, yj, zj) = (&xs[i + 1..n], &ys[i + 1..n], &zs[i + 1..n]);
+            let aj = &self.pair_alarm2[k..k + m];
             let mut hit = false;
-            for (((&x, &y), &z), &a) in xs[i + 1..]
-                .iter()
-                .zip(&ys[i + 1..])
-                .zip(&zs[i + 1..])
-                .zip(&self.pair_alarm2[k..k + m])
-            {
-                let (dx, dy, dz) = (x - xi, y - yi, z - zi);
-                hit |= dx * dx + dy * dy + dz * dz < a;
+            for j in 0..m {
+                let (dx, dy, dz) = (xj[j] - xi, yj[j] - yi, zj[j] - zi);
+                hit |= dx * dx + dy * dy + dz * dz < aj[j];
             }
             close |= hit;
             k += m;
