@@ -324,12 +324,11 @@ impl NnlsWorkspace {
         self.u_valid = self.u_valid.min(self.set.len());
     }
 
-    /// Solves RᵀR z = b into `self.z`. The forward part u = R⁻ᵀ b is kept
-    /// between calls: appending a column extends it by one entry, so only
-    /// the entries past `u_valid` are computed; the back substitution runs
-    /// column by column (contiguous access).
+    /// Brings the forward part u = R⁻ᵀ b up to date. It is kept between
+    /// calls: appending a column extends it by one entry, so only the entries
+    /// past `u_valid` are computed.
     #[inline(always)]
-    fn solve_z(&mut self) {
+    fn solve_u(&mut self) {
         let k = self.set.len();
         let cap = self.cap;
         self.u.truncate(self.u_valid.min(k));
@@ -338,6 +337,27 @@ impl NnlsWorkspace {
             self.u.push(acc / self.r[i * cap + i]);
         }
         self.u_valid = k;
+    }
+
+    /// The last component of the least-squares solution on P, z_k = u_k / R_kk
+    /// (the first step of the back substitution, so the same number that
+    /// [`solve_z`](Self::solve_z) gives), without the rest of z.
+    #[inline(always)]
+    fn last_z(&mut self) -> Option<f64> {
+        self.solve_u();
+        let k = self.set.len();
+        let cap = self.cap;
+        let uk = *self.u.last()?;
+        Some(uk / self.r[(k - 1) * cap + k - 1])
+    }
+
+    /// Solves RᵀR z = b into `self.z` ([`solve_u`](Self::solve_u), then the
+    /// back substitution, column by column for contiguous access).
+    #[inline(always)]
+    fn solve_z(&mut self) {
+        let k = self.set.len();
+        let cap = self.cap;
+        self.solve_u();
         self.z.clear();
         self.z.extend_from_slice(&self.u);
         for i in (0..k).rev() {
@@ -623,8 +643,9 @@ impl NnlsWorkspace {
                     self.rejected_list.push(j);
                     continue;
                 }
-                self.solve_z();
-                if self.z.last().is_some_and(|&v| v > 0.0) {
+                // Only the sign of the new column's component decides; the
+                // inner loop below computes the whole z.
+                if self.last_z().is_some_and(|v| v > 0.0) {
                     self.passive[j] = true;
                     break true;
                 }
