@@ -78,6 +78,41 @@ pub struct NnlsWorkspace {
     cols: Vec<usize>,
     /// E_Pᵀ E_j of the column being appended.
     cross: Vec<f64>,
+    /// The column being appended, E_j = E0_j − s, when E is shifted.
+    col: Vec<f64>,
+}
+
+/// The matrix of a solve, column-major m×n: E = E0 − s 1ᵀ, every column of
+/// the stored E0 shifted by the same vector s (none when `shift` is
+/// `None`). The shifted matrix is never formed: E_j·r = E0_j·r − s·r, and
+/// r = f − E x = f − E0 x + (Σx) s, so a Monte Carlo refit that shifts the
+/// data need not copy the matrix.
+#[derive(Clone, Copy)]
+struct Mat<'a> {
+    e0: &'a [f64],
+    m: usize,
+    shift: Option<&'a [f64]>,
+}
+
+impl Mat<'_> {
+    /// Column j of E0.
+    #[inline(always)]
+    fn col0(&self, j: usize) -> &[f64] {
+        &self.e0[j * self.m..(j + 1) * self.m]
+    }
+
+    /// E_j · r for every j in `cols` (into `out[j]`, or with `PACKED` into
+    /// `out[k]` for the k-th entry of `cols`).
+    #[inline(always)]
+    fn column_dots<const PACKED: bool>(&self, r: &[f64], cols: &[usize], out: &mut [f64]) {
+        kernel::column_dots::<PACKED>(self.e0, self.m, r, cols, out);
+        if let Some(s) = self.shift {
+            let sr = dot(s, r);
+            for (k, &j) in cols.iter().enumerate() {
+                out[if PACKED { k } else { j }] -= sr;
+            }
+        }
+    }
 }
 
 /// Dot product with eight independent accumulators (lets the compiler
@@ -283,13 +318,30 @@ impl NnlsWorkspace {
     /// Appends column `j` to the Cholesky factor; false if it is (nearly)
     /// dependent on the columns already there or the factor is full.
     #[inline(always)]
-    fn push(&mut self, e: &[f64], m: usize, f: &[f64], j: usize) -> bool {
+    fn push(&mut self, a: Mat<'_>, f: &[f64], j: usize) -> bool {
         let k = self.set.len();
         if k >= self.cap {
             return false;
         }
+        let mut col = std::mem::take(&mut self.col);
+        let ej = match a.shift {
+            None => a.col0(j),
+            Some(s) => {
+                col.clear();
+                col.extend(a.col0(j).iter().zip(s).map(|(&e, &s)| e - s));
+                &col[..]
+            }
+        };
+        let pushed = self.push_col(a, f, j, ej);
+        self.col = col;
+        pushed
+    }
+
+    /// [`push`](Self::push) with column j of E given as `ej`.
+    #[inline(always)]
+    fn push_col(&mut self, a: Mat<'_>, f: &[f64], j: usize, ej: &[f64]) -> bool {
+        let k = self.set.len();
         let cap = self.cap;
-        let ej = &e[j * m..(j + 1) * m];
         let nj = dot(ej, ej);
         if nj <= 0.0 {
             return false;
@@ -298,7 +350,7 @@ impl NnlsWorkspace {
         if self.cross.len() < k {
             self.cross.resize(k, 0.0);
         }
-        kernel::column_dots::<true>(e, m, ej, &self.set, &mut self.cross);
+        a.column_dots::<true>(ej, &self.set, &mut self.cross);
         let mut ss = 0.0;
         for i in 0..k {
             let v = self.cross[i];
@@ -422,7 +474,7 @@ impl NnlsWorkspace {
     /// converged within its iteration limit (3n + |warm| + 10); the solution
     /// is in [`x`](Self::x) either way.
     pub fn solve(&mut self, e: &DMatrix<f64>, f: &[f64], warm: &[usize]) -> bool {
-        self.solve_impl(e, f, Start::Set(warm), &Hint::default())
+        self.solve_impl(e, None, f, Start::Set(warm), &Hint::default())
     }
 
     /// Like [`solve`](Self::solve), started from the feasible point `x0`
@@ -431,7 +483,28 @@ impl NnlsWorkspace {
     /// solution on its support, dropping only the columns that block.
     /// `hint` can spare the solver its first full pass over E.
     pub fn solve_from(&mut self, e: &DMatrix<f64>, f: &[f64], x0: &[f64], hint: &Hint<'_>) -> bool {
-        self.solve_impl(e, f, Start::Point(x0), hint)
+        self.solve_impl(e, None, f, Start::Point(x0), hint)
+    }
+
+    /// Like [`solve_from`](Self::solve_from) for the matrix E = E0 − s 1ᵀ
+    /// (the vector `shift` = s subtracted from every column of `e0`), which
+    /// is not formed. Errors if `shift` does not have one entry per row.
+    pub fn solve_shifted_from(
+        &mut self,
+        e0: &DMatrix<f64>,
+        shift: &[f64],
+        f: &[f64],
+        x0: &[f64],
+        hint: &Hint<'_>,
+    ) -> Result<bool> {
+        if shift.len() != e0.nrows() {
+            return Err(Error::Fit(format!(
+                "non-negative least squares: the matrix has {} rows but the shift {} entries",
+                e0.nrows(),
+                shift.len()
+            )));
+        }
+        Ok(self.solve_impl(e0, Some(shift), f, Start::Point(x0), hint))
     }
 
     /// The Lawson–Hanson inner loop (steps 8–11): from a feasible x with
@@ -484,6 +557,7 @@ impl NnlsWorkspace {
     fn solve_impl(
         &mut self,
         e: &DMatrix<f64>,
+        shift: Option<&[f64]>,
         f: &[f64],
         start: Start<'_>,
         hint: &Hint<'_>,
@@ -494,10 +568,10 @@ impl NnlsWorkspace {
                 && std::arch::is_x86_feature_detected!("fma")
             {
                 // SAFETY: the CPU supports AVX2 and FMA (checked above).
-                return unsafe { self.solve_avx2(e, f, start, hint) };
+                return unsafe { self.solve_avx2(e, shift, f, start, hint) };
             }
         }
-        self.solve_body(e, f, start, hint)
+        self.solve_body(e, shift, f, start, hint)
     }
 
     /// [`solve_body`](Self::solve_body) compiled for AVX2 and FMA, so that
@@ -511,11 +585,12 @@ impl NnlsWorkspace {
     unsafe fn solve_avx2(
         &mut self,
         e: &DMatrix<f64>,
+        shift: Option<&[f64]>,
         f: &[f64],
         start: Start<'_>,
         hint: &Hint<'_>,
     ) -> bool {
-        self.solve_body(e, f, start, hint)
+        self.solve_body(e, shift, f, start, hint)
     }
 
     /// The solver loop proper (see [`solve_impl`](Self::solve_impl)).
@@ -523,12 +598,17 @@ impl NnlsWorkspace {
     fn solve_body(
         &mut self,
         e: &DMatrix<f64>,
+        shift: Option<&[f64]>,
         f: &[f64],
         start: Start<'_>,
         hint: &Hint<'_>,
     ) -> bool {
         let (m, n) = e.shape();
-        let es = e.as_slice();
+        let a = Mat {
+            e0: e.as_slice(),
+            m,
+            shift: shift.map(|s| &s[..m]),
+        };
         self.resize(m, n);
         self.iterations = 0;
         self.removals = 0;
@@ -541,7 +621,7 @@ impl NnlsWorkspace {
             Start::Set(warm) => {
                 extra = warm.len();
                 for &j in warm {
-                    if j < n && !self.passive[j] && self.push(es, m, f, j) {
+                    if j < n && !self.passive[j] && self.push(a, f, j) {
                         self.passive[j] = true;
                     }
                 }
@@ -564,7 +644,7 @@ impl NnlsWorkspace {
             }
             Start::Point(x0) => {
                 for (j, &v) in x0.iter().enumerate().take(n) {
-                    if v > 0.0 && v.is_finite() && self.push(es, m, f, j) {
+                    if v > 0.0 && v.is_finite() && self.push(a, f, j) {
                         self.passive[j] = true;
                         self.x[j] = v;
                         extra += 1;
@@ -584,7 +664,7 @@ impl NnlsWorkspace {
             self.is_cand[j] = true;
             self.cand.push(j);
         }
-        self.compute_resid(es, m, f);
+        self.compute_resid(a, f);
         let tol;
         let mut fresh;
         if let (Some(col), false) = (hint.max_column_norm, hint.candidates.is_empty()) {
@@ -600,11 +680,21 @@ impl NnlsWorkspace {
             // Full dual vector at the start; its pass also gives the largest
             // column norm, which scales the tolerance.
             let mut max_col2 = 0.0_f64;
+            let mut col = std::mem::take(&mut self.col);
             for j in 0..n {
-                let (g, nn) = dot2(&es[j * m..(j + 1) * m], &self.resid);
+                let ej = match a.shift {
+                    None => a.col0(j),
+                    Some(s) => {
+                        col.clear();
+                        col.extend(a.col0(j).iter().zip(s).map(|(&e, &s)| e - s));
+                        &col[..]
+                    }
+                };
+                let (g, nn) = dot2(ej, &self.resid);
                 max_col2 = max_col2.max(nn);
                 self.grad[j] = g;
             }
+            self.col = col;
             let col = hint.max_column_norm.unwrap_or(max_col2.sqrt());
             tol = 1e-13 * (m.max(n) as f64) * col * fnorm.max(f64::MIN_POSITIVE);
             self.add_violators(tol, limit);
@@ -613,7 +703,7 @@ impl NnlsWorkspace {
 
         loop {
             if !fresh {
-                self.compute_resid(es, m, f);
+                self.compute_resid(a, f);
                 self.cols.clear();
                 for &j in &self.cand {
                     if self.passive[j] {
@@ -622,7 +712,7 @@ impl NnlsWorkspace {
                         self.cols.push(j);
                     }
                 }
-                kernel::column_dots::<false>(es, m, &self.resid, &self.cols, &mut self.grad);
+                a.column_dots::<false>(&self.resid, &self.cols, &mut self.grad);
             }
             fresh = false;
             // Bring in the most promising candidate that keeps the LS
@@ -638,7 +728,7 @@ impl NnlsWorkspace {
                     }
                 }
                 let Some(j) = best else { break false };
-                if !self.push(es, m, f, j) {
+                if !self.push(a, f, j) {
                     self.rejected[j] = true;
                     self.rejected_list.push(j);
                     continue;
@@ -662,7 +752,7 @@ impl NnlsWorkspace {
                 self.full_checks += 1;
                 self.cols.clear();
                 self.cols.extend((0..n).filter(|&j| !self.is_cand[j]));
-                kernel::column_dots::<false>(es, m, &self.resid, &self.cols, &mut self.grad);
+                a.column_dots::<false>(&self.resid, &self.cols, &mut self.grad);
                 if !self.add_violators(tol, limit) {
                     return true;
                 }
@@ -677,14 +767,21 @@ impl NnlsWorkspace {
         }
     }
 
-    /// r = f − E x over the passive set.
+    /// r = f − E x over the passive set (with a shift, f − E0 x + (Σx) s).
     #[inline(always)]
-    fn compute_resid(&mut self, es: &[f64], m: usize, f: &[f64]) {
+    fn compute_resid(&mut self, a: Mat<'_>, f: &[f64]) {
         self.resid.copy_from_slice(f);
+        let mut sum = 0.0;
         for &j in &self.set {
             let xj = self.x[j];
-            for (r, &ev) in self.resid.iter_mut().zip(&es[j * m..(j + 1) * m]) {
+            sum += xj;
+            for (r, &ev) in self.resid.iter_mut().zip(a.col0(j)) {
                 *r -= xj * ev;
+            }
+        }
+        if let Some(s) = a.shift {
+            for (r, &sv) in self.resid.iter_mut().zip(s) {
+                *r += sum * sv;
             }
         }
     }
@@ -847,6 +944,34 @@ mod tests {
         assert!(ws.solve(&e, f.as_slice(), &warm));
         let x = DVector::from_column_slice(ws.x());
         assert!((x - &cold.x).norm() < 1e-9 * (1.0 + cold.x.norm()));
+    }
+
+    #[test]
+    fn shifted_matrix_gives_same_optimum_as_formed_one() {
+        let mut rng = crate::fit::rng::Xoshiro256StarStar::seed_from_u64(17);
+        let (m, n) = (12, 80);
+        let e0 = DMatrix::from_fn(m, n, |_, _| rng.next_f64() * 4.0 - 1.0);
+        let f = DVector::from_fn(m, |_, _| rng.next_f64() * 2.0);
+        let shift: Vec<f64> = (0..m).map(|_| rng.next_normal() * 0.5).collect();
+        let e = DMatrix::from_fn(m, n, |i, j| e0[(i, j)] - shift[i]);
+        let formed = nnls(&e, &f).unwrap();
+        let x0 = vec![0.1; n];
+        let mut ws = NnlsWorkspace::new();
+        assert!(ws
+            .solve_shifted_from(&e0, &shift, f.as_slice(), &x0, &Hint::default())
+            .unwrap());
+        let x = DVector::from_column_slice(ws.x());
+        let s = NnlsSolution {
+            residual_norm: (&e * &x - &f).norm(),
+            x,
+            passive_set: Vec::new(),
+            iterations: 0,
+        };
+        check_kkt(&e, &f, &s);
+        assert!((&s.x - &formed.x).norm() < 1e-9 * (1.0 + formed.x.norm()));
+        assert!(ws
+            .solve_shifted_from(&e0, &shift[1..], f.as_slice(), &x0, &Hint::default())
+            .is_err());
     }
 
     proptest! {
