@@ -111,7 +111,10 @@ impl PopulationFit {
 pub struct SimplexSolver {
     m: usize,
     n: usize,
-    /// [B − c1ᵀ ; w 1ᵀ] for the nominal data.
+    /// [B − c1ᵀ ; w 1ᵀ ; 0] for the nominal data, padded with zero rows to a
+    /// multiple of four rows so that the NNLS kernels run on whole 256-bit
+    /// vectors. Zero rows, with zeros in f and in the shift, add nothing to
+    /// any product or residual, and cannot raise the rank.
     e0: DMatrix<f64>,
     /// The shift of the columns of E0 for shifted data, [δ ; 0].
     shift: Vec<f64>,
@@ -131,7 +134,7 @@ impl SimplexSolver {
     pub fn new(problem: &Problem) -> Self {
         let (b, c) = problem.weighted();
         let (m, n) = b.shape();
-        let rows = m + 1;
+        let rows = (m + 1).next_multiple_of(4);
         let mut e0 = DMatrix::zeros(rows, n);
         let mut best = f64::INFINITY;
         let mut mean = 0.0;
