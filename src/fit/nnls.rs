@@ -643,13 +643,27 @@ impl NnlsWorkspace {
                 }
             }
             Start::Point(x0) => {
-                for (j, &v) in x0.iter().enumerate().take(n) {
-                    if v > 0.0 && v.is_finite() && self.push(a, f, j) {
+                // Largest components first: the small ones are the likeliest
+                // to leave, and dropping a column costs O((k − pos)²) for
+                // the columns after it in the factor.
+                let mut order = std::mem::take(&mut self.scratch);
+                order.clear();
+                order.extend(
+                    x0.iter()
+                        .take(n)
+                        .enumerate()
+                        .filter(|&(_, &v)| v > 0.0 && v.is_finite())
+                        .map(|(j, &v)| (v, j)),
+                );
+                order.sort_unstable_by(|p, q| q.0.total_cmp(&p.0).then(p.1.cmp(&q.1)));
+                for &(v, j) in &order {
+                    if self.push(a, f, j) {
                         self.passive[j] = true;
                         self.x[j] = v;
                         extra += 1;
                     }
                 }
+                self.scratch = order;
                 self.inner_loop();
             }
         }
