@@ -55,6 +55,9 @@ pub struct NnlsWorkspace {
     set: Vec<usize>,
     /// Upper-triangular Cholesky factor, column-major with leading dim `cap`.
     r: Vec<f64>,
+    /// Reciprocals of the diagonal of R (the substitutions multiply instead
+    /// of dividing: a division's latency would sit on their critical path).
+    dinv: Vec<f64>,
     cap: usize,
     /// E_Pᵀ f in factor order.
     b: Vec<f64>,
@@ -310,6 +313,7 @@ impl NnlsWorkspace {
         self.grad.resize(n, 0.0);
         self.set.clear();
         self.b.clear();
+        self.dinv.clear();
         self.z.clear();
         self.u.clear();
         self.u_valid = 0;
@@ -355,7 +359,7 @@ impl NnlsWorkspace {
         for i in 0..k {
             let v = self.cross[i];
             let acc = v - dot(&self.r[i * cap..i * cap + i], &self.r[k * cap..k * cap + i]);
-            let s = acc / self.r[i * cap + i];
+            let s = acc * self.dinv[i];
             self.r[k * cap + i] = s;
             ss += s * s;
         }
@@ -363,7 +367,9 @@ impl NnlsWorkspace {
         if d.is_nan() || d <= DEPENDENCE_TOL * nj {
             return false;
         }
-        self.r[k * cap + k] = d.sqrt();
+        let dk = d.sqrt();
+        self.r[k * cap + k] = dk;
+        self.dinv.push(1.0 / dk);
         self.set.push(j);
         self.b.push(dot(ej, f));
         true
@@ -373,6 +379,7 @@ impl NnlsWorkspace {
     fn pop(&mut self) {
         self.set.pop();
         self.b.pop();
+        self.dinv.pop();
         self.u_valid = self.u_valid.min(self.set.len());
     }
 
@@ -386,7 +393,7 @@ impl NnlsWorkspace {
         self.u.truncate(self.u_valid.min(k));
         for i in self.u.len()..k {
             let acc = self.b[i] - dot(&self.r[i * cap..i * cap + i], &self.u[..i]);
-            self.u.push(acc / self.r[i * cap + i]);
+            self.u.push(acc * self.dinv[i]);
         }
         self.u_valid = k;
     }
@@ -398,9 +405,8 @@ impl NnlsWorkspace {
     fn last_z(&mut self) -> Option<f64> {
         self.solve_u();
         let k = self.set.len();
-        let cap = self.cap;
         let uk = *self.u.last()?;
-        Some(uk / self.r[(k - 1) * cap + k - 1])
+        Some(uk * self.dinv[k - 1])
     }
 
     /// Solves RᵀR z = b into `self.z` ([`solve_u`](Self::solve_u), then the
@@ -413,7 +419,7 @@ impl NnlsWorkspace {
         self.z.clear();
         self.z.extend_from_slice(&self.u);
         for i in (0..k).rev() {
-            let zi = self.z[i] / self.r[i * cap + i];
+            let zi = self.z[i] * self.dinv[i];
             self.z[i] = zi;
             let col = &self.r[i * cap..i * cap + i];
             for (zl, &rl) in self.z[..i].iter_mut().zip(col) {
@@ -446,10 +452,14 @@ impl NnlsWorkspace {
                 let a = self.r[c * cap + c];
                 let b = self.r[c * cap + c + 1];
                 let h = (a * a + b * b).sqrt();
+                let hinv = 1.0 / h;
+                // Column c's diagonal is now h (or a = 0 when there is no
+                // rotation to make); its reciprocal moves down from c + 1.
+                self.dinv[c] = hinv;
                 if h == 0.0 {
                     continue;
                 }
-                let (cs, sn) = (a / h, b / h);
+                let (cs, sn) = (a * hinv, b * hinv);
                 self.r[c * cap + c] = h;
                 self.r[c * cap + c + 1] = 0.0;
                 for j in c + 1..k - 1 {
@@ -461,6 +471,7 @@ impl NnlsWorkspace {
             }
             self.set.remove(pos);
             self.b.remove(pos);
+            self.dinv.truncate(k - 1);
             self.removals += 1;
             // The rotations changed R from column `pos` on.
             self.u_valid = self.u_valid.min(pos);
