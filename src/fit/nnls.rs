@@ -83,6 +83,9 @@ pub struct NnlsWorkspace {
     cross: Vec<f64>,
     /// The column being appended, E_j = E0_j − s, when E is shifted.
     col: Vec<f64>,
+    /// Use the portable code even where AVX2 and FMA are available (for
+    /// tests of the fallback on machines that have them).
+    portable: bool,
 }
 
 /// The matrix of a solve, column-major m×n: E = E0 − s 1ᵀ, every column of
@@ -95,6 +98,8 @@ struct Mat<'a> {
     e0: &'a [f64],
     m: usize,
     shift: Option<&'a [f64]>,
+    /// Whether the AVX2 kernel may be used.
+    simd: bool,
 }
 
 impl Mat<'_> {
@@ -108,7 +113,7 @@ impl Mat<'_> {
     /// `out[k]` for the k-th entry of `cols`).
     #[inline(always)]
     fn column_dots<const PACKED: bool>(&self, r: &[f64], cols: &[usize], out: &mut [f64]) {
-        kernel::column_dots::<PACKED>(self.e0, self.m, r, cols, out);
+        kernel::column_dots::<PACKED>(self.e0, self.m, r, cols, out, self.simd);
         if let Some(s) = self.shift {
             let sr = dot(s, r);
             for (k, &j) in cols.iter().enumerate() {
@@ -147,17 +152,20 @@ mod kernel {
 
     /// Writes `E_j · r` for every `j` in `cols`, where column `j` of the
     /// column-major matrix `es` is `es[j*m..(j+1)*m]`: into `out[j]`, or with
-    /// `PACKED` into `out[k]` for the k-th entry of `cols`.
+    /// `PACKED` into `out[k]` for the k-th entry of `cols`. Without `simd`
+    /// the portable code runs whatever the CPU.
     pub(super) fn column_dots<const PACKED: bool>(
         es: &[f64],
         m: usize,
         r: &[f64],
         cols: &[usize],
         out: &mut [f64],
+        simd: bool,
     ) {
         #[cfg(target_arch = "x86_64")]
         {
-            if std::arch::is_x86_feature_detected!("avx2")
+            if simd
+                && std::arch::is_x86_feature_detected!("avx2")
                 && std::arch::is_x86_feature_detected!("fma")
                 && r.len() >= m
             {
@@ -575,7 +583,8 @@ impl NnlsWorkspace {
     ) -> bool {
         #[cfg(target_arch = "x86_64")]
         {
-            if std::arch::is_x86_feature_detected!("avx2")
+            if !self.portable
+                && std::arch::is_x86_feature_detected!("avx2")
                 && std::arch::is_x86_feature_detected!("fma")
             {
                 // SAFETY: the CPU supports AVX2 and FMA (checked above).
@@ -619,6 +628,7 @@ impl NnlsWorkspace {
             e0: e.as_slice(),
             m,
             shift: shift.map(|s| &s[..m]),
+            simd: !self.portable,
         };
         self.resize(m, n);
         self.iterations = 0;
@@ -969,6 +979,75 @@ mod tests {
         assert!(ws.solve(&e, f.as_slice(), &warm));
         let x = DVector::from_column_slice(ws.x());
         assert!((x - &cold.x).norm() < 1e-9 * (1.0 + cold.x.norm()));
+    }
+
+    /// The portable column-dot code against the AVX2 kernel (the same code
+    /// twice on a CPU without AVX2), for row counts with and without a tail
+    /// and column lists with and without a partial group of four.
+    #[test]
+    fn portable_column_dots_match_simd_kernel() {
+        let mut rng = crate::fit::rng::Xoshiro256StarStar::seed_from_u64(23);
+        for m in [1, 3, 4, 7, 51, 52] {
+            let n = 13;
+            let es: Vec<f64> = (0..m * n).map(|_| rng.next_f64() - 0.5).collect();
+            let r: Vec<f64> = (0..m).map(|_| rng.next_f64() - 0.5).collect();
+            for cols in [vec![0, 5, 2, 12, 7, 1, 9, 3, 11, 4], (0..n).collect()] {
+                let mut a = vec![0.0; n];
+                let mut b = vec![0.0; n];
+                kernel::column_dots::<false>(&es, m, &r, &cols, &mut a, true);
+                kernel::column_dots::<false>(&es, m, &r, &cols, &mut b, false);
+                let mut pa = vec![0.0; cols.len()];
+                let mut pb = vec![0.0; cols.len()];
+                kernel::column_dots::<true>(&es, m, &r, &cols, &mut pa, true);
+                kernel::column_dots::<true>(&es, m, &r, &cols, &mut pb, false);
+                for (k, &j) in cols.iter().enumerate() {
+                    let exact: f64 = (0..m).map(|i| es[j * m + i] * r[i]).sum();
+                    for v in [a[j], b[j], pa[k], pb[k]] {
+                        assert!((v - exact).abs() < 1e-13 * m as f64, "m {m} col {j}");
+                    }
+                }
+            }
+        }
+    }
+
+    /// The whole solver with the portable code forced, against the default
+    /// (AVX2 where the CPU has it), cold and shifted: same optimum, KKT.
+    #[test]
+    fn portable_solver_matches_default() {
+        let mut rng = crate::fit::rng::Xoshiro256StarStar::seed_from_u64(29);
+        let (m, n) = (21, 300);
+        let e0 = DMatrix::from_fn(m, n, |_, _| rng.next_f64() * 4.0 - 1.0);
+        let f = DVector::from_fn(m, |_, _| rng.next_f64() * 3.0);
+        let shift: Vec<f64> = (0..m).map(|_| rng.next_normal() * 0.3).collect();
+        let e = DMatrix::from_fn(m, n, |i, j| e0[(i, j)] - shift[i]);
+        let as_solution = |e: &DMatrix<f64>, ws: &NnlsWorkspace| {
+            let x = DVector::from_column_slice(ws.x());
+            NnlsSolution {
+                residual_norm: (e * &x - &f).norm(),
+                x,
+                passive_set: Vec::new(),
+                iterations: 0,
+            }
+        };
+        let mut fast = NnlsWorkspace::new();
+        let mut portable = NnlsWorkspace::new();
+        portable.portable = true;
+        assert!(fast.solve(&e0, f.as_slice(), &[]));
+        assert!(portable.solve(&e0, f.as_slice(), &[]));
+        let (sf, sp) = (as_solution(&e0, &fast), as_solution(&e0, &portable));
+        check_kkt(&e0, &f, &sp);
+        assert!(portable.passive_set().len() > 1);
+        assert!((&sf.x - &sp.x).norm() < 1e-9 * (1.0 + sf.x.norm()));
+        let x0 = sf.x.as_slice().to_vec();
+        let hint = Hint::default();
+        for ws in [&mut fast, &mut portable] {
+            assert!(ws
+                .solve_shifted_from(&e0, &shift, f.as_slice(), &x0, &hint)
+                .unwrap());
+        }
+        let (sf, sp) = (as_solution(&e, &fast), as_solution(&e, &portable));
+        check_kkt(&e, &f, &sp);
+        assert!((&sf.x - &sp.x).norm() < 1e-9 * (1.0 + sf.x.norm()));
     }
 
     #[test]
