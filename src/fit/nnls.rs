@@ -113,13 +113,8 @@ impl Mat<'_> {
     /// `out[k]` for the k-th entry of `cols`).
     #[inline(always)]
     fn column_dots<const PACKED: bool>(&self, r: &[f64], cols: &[usize], out: &mut [f64]) {
-        kernel::column_dots::<PACKED>(self.e0, self.m, r, cols, out, self.simd);
-        if let Some(s) = self.shift {
-            let sr = dot(s, r);
-            for (k, &j) in cols.iter().enumerate() {
-                out[if PACKED { k } else { j }] -= sr;
-            }
-        }
+        let sr = self.shift.map_or(0.0, |s| dot(s, r));
+        kernel::column_dots::<PACKED>(self.e0, self.m, r, sr, cols, out, self.simd);
     }
 }
 
@@ -150,14 +145,15 @@ fn dot(a: &[f64], b: &[f64]) -> f64 {
 mod kernel {
     use super::dot;
 
-    /// Writes `E_j · r` for every `j` in `cols`, where column `j` of the
-    /// column-major matrix `es` is `es[j*m..(j+1)*m]`: into `out[j]`, or with
-    /// `PACKED` into `out[k]` for the k-th entry of `cols`. Without `simd`
-    /// the portable code runs whatever the CPU.
+    /// Writes `E_j · r − sub` for every `j` in `cols`, where column `j` of
+    /// the column-major matrix `es` is `es[j*m..(j+1)*m]`: into `out[j]`, or
+    /// with `PACKED` into `out[k]` for the k-th entry of `cols`. Without
+    /// `simd` the portable code runs whatever the CPU.
     pub(super) fn column_dots<const PACKED: bool>(
         es: &[f64],
         m: usize,
         r: &[f64],
+        sub: f64,
         cols: &[usize],
         out: &mut [f64],
         simd: bool,
@@ -171,12 +167,12 @@ mod kernel {
             {
                 // SAFETY: the CPU supports AVX2 and FMA (checked above), and
                 // r holds at least m entries (checked above).
-                unsafe { avx2::column_dots::<PACKED>(es, m, r, cols, out) };
+                unsafe { avx2::column_dots::<PACKED>(es, m, r, sub, cols, out) };
                 return;
             }
         }
         for (k, &j) in cols.iter().enumerate() {
-            out[if PACKED { k } else { j }] = dot(&es[j * m..(j + 1) * m], r);
+            out[if PACKED { k } else { j }] = dot(&es[j * m..(j + 1) * m], r) - sub;
         }
     }
 
@@ -205,6 +201,7 @@ mod kernel {
             es: &[f64],
             m: usize,
             r: &[f64],
+            sub: f64,
             cols: &[usize],
             out: &mut [f64],
         ) {
@@ -238,10 +235,10 @@ mod kernel {
                     i += 1;
                 }
                 let at = |l: usize| if PACKED { k + l } else { q[l] };
-                out[at(0)] = s0;
-                out[at(1)] = s1;
-                out[at(2)] = s2;
-                out[at(3)] = s3;
+                out[at(0)] = s0 - sub;
+                out[at(1)] = s1 - sub;
+                out[at(2)] = s2 - sub;
+                out[at(3)] = s3 - sub;
                 k += 4;
             }
             for &j in quads.remainder() {
@@ -257,7 +254,7 @@ mod kernel {
                     s += *p.add(i) * *rp.add(i);
                     i += 1;
                 }
-                out[if PACKED { k } else { j }] = s;
+                out[if PACKED { k } else { j }] = s - sub;
                 k += 1;
             }
         }
@@ -994,14 +991,14 @@ mod tests {
             for cols in [vec![0, 5, 2, 12, 7, 1, 9, 3, 11, 4], (0..n).collect()] {
                 let mut a = vec![0.0; n];
                 let mut b = vec![0.0; n];
-                kernel::column_dots::<false>(&es, m, &r, &cols, &mut a, true);
-                kernel::column_dots::<false>(&es, m, &r, &cols, &mut b, false);
+                kernel::column_dots::<false>(&es, m, &r, 0.25, &cols, &mut a, true);
+                kernel::column_dots::<false>(&es, m, &r, 0.25, &cols, &mut b, false);
                 let mut pa = vec![0.0; cols.len()];
                 let mut pb = vec![0.0; cols.len()];
-                kernel::column_dots::<true>(&es, m, &r, &cols, &mut pa, true);
-                kernel::column_dots::<true>(&es, m, &r, &cols, &mut pb, false);
+                kernel::column_dots::<true>(&es, m, &r, 0.25, &cols, &mut pa, true);
+                kernel::column_dots::<true>(&es, m, &r, 0.25, &cols, &mut pb, false);
                 for (k, &j) in cols.iter().enumerate() {
-                    let exact: f64 = (0..m).map(|i| es[j * m + i] * r[i]).sum();
+                    let exact: f64 = (0..m).map(|i| es[j * m + i] * r[i]).sum::<f64>() - 0.25;
                     for v in [a[j], b[j], pa[k], pb[k]] {
                         assert!((v - exact).abs() < 1e-13 * m as f64, "m {m} col {j}");
                     }
