@@ -55,6 +55,9 @@ pub struct NnlsWorkspace {
     set: Vec<usize>,
     /// Upper-triangular Cholesky factor, column-major with leading dim `cap`.
     r: Vec<f64>,
+    /// Reciprocals of the diagonal of R (the substitutions multiply instead
+    /// of dividing: a division's latency would sit on their critical path).
+    dinv: Vec<f64>,
     cap: usize,
     /// E_Pᵀ f in factor order.
     b: Vec<f64>,
@@ -78,6 +81,41 @@ pub struct NnlsWorkspace {
     cols: Vec<usize>,
     /// E_Pᵀ E_j of the column being appended.
     cross: Vec<f64>,
+    /// The column being appended, E_j = E0_j − s, when E is shifted.
+    col: Vec<f64>,
+    /// Use the portable code even where AVX2 and FMA are available (for
+    /// tests of the fallback on machines that have them).
+    portable: bool,
+}
+
+/// The matrix of a solve, column-major m×n: E = E0 − s 1ᵀ, every column of
+/// the stored E0 shifted by the same vector s (none when `shift` is
+/// `None`). The shifted matrix is never formed: E_j·r = E0_j·r − s·r, and
+/// r = f − E x = f − E0 x + (Σx) s, so a Monte Carlo refit that shifts the
+/// data need not copy the matrix.
+#[derive(Clone, Copy)]
+struct Mat<'a> {
+    e0: &'a [f64],
+    m: usize,
+    shift: Option<&'a [f64]>,
+    /// Whether the AVX2 kernel may be used.
+    simd: bool,
+}
+
+impl Mat<'_> {
+    /// Column j of E0.
+    #[inline(always)]
+    fn col0(&self, j: usize) -> &[f64] {
+        &self.e0[j * self.m..(j + 1) * self.m]
+    }
+
+    /// E_j · r for every j in `cols` (into `out[j]`, or with `PACKED` into
+    /// `out[k]` for the k-th entry of `cols`).
+    #[inline(always)]
+    fn column_dots<const PACKED: bool>(&self, r: &[f64], cols: &[usize], out: &mut [f64]) {
+        let sr = self.shift.map_or(0.0, |s| dot(s, r));
+        kernel::column_dots::<PACKED>(self.e0, self.m, r, sr, cols, out, self.simd);
+    }
 }
 
 /// Dot product with eight independent accumulators (lets the compiler
@@ -107,30 +145,34 @@ fn dot(a: &[f64], b: &[f64]) -> f64 {
 mod kernel {
     use super::dot;
 
-    /// Writes `E_j · r` for every `j` in `cols`, where column `j` of the
-    /// column-major matrix `es` is `es[j*m..(j+1)*m]`: into `out[j]`, or with
-    /// `PACKED` into `out[k]` for the k-th entry of `cols`.
+    /// Writes `E_j · r − sub` for every `j` in `cols`, where column `j` of
+    /// the column-major matrix `es` is `es[j*m..(j+1)*m]`: into `out[j]`, or
+    /// with `PACKED` into `out[k]` for the k-th entry of `cols`. Without
+    /// `simd` the portable code runs whatever the CPU.
     pub(super) fn column_dots<const PACKED: bool>(
         es: &[f64],
         m: usize,
         r: &[f64],
+        sub: f64,
         cols: &[usize],
         out: &mut [f64],
+        simd: bool,
     ) {
         #[cfg(target_arch = "x86_64")]
         {
-            if std::arch::is_x86_feature_detected!("avx2")
+            if simd
+                && std::arch::is_x86_feature_detected!("avx2")
                 && std::arch::is_x86_feature_detected!("fma")
                 && r.len() >= m
             {
                 // SAFETY: the CPU supports AVX2 and FMA (checked above), and
                 // r holds at least m entries (checked above).
-                unsafe { avx2::column_dots::<PACKED>(es, m, r, cols, out) };
+                unsafe { avx2::column_dots::<PACKED>(es, m, r, sub, cols, out) };
                 return;
             }
         }
         for (k, &j) in cols.iter().enumerate() {
-            out[if PACKED { k } else { j }] = dot(&es[j * m..(j + 1) * m], r);
+            out[if PACKED { k } else { j }] = dot(&es[j * m..(j + 1) * m], r) - sub;
         }
     }
 
@@ -159,6 +201,7 @@ mod kernel {
             es: &[f64],
             m: usize,
             r: &[f64],
+            sub: f64,
             cols: &[usize],
             out: &mut [f64],
         ) {
@@ -192,10 +235,10 @@ mod kernel {
                     i += 1;
                 }
                 let at = |l: usize| if PACKED { k + l } else { q[l] };
-                out[at(0)] = s0;
-                out[at(1)] = s1;
-                out[at(2)] = s2;
-                out[at(3)] = s3;
+                out[at(0)] = s0 - sub;
+                out[at(1)] = s1 - sub;
+                out[at(2)] = s2 - sub;
+                out[at(3)] = s3 - sub;
                 k += 4;
             }
             for &j in quads.remainder() {
@@ -211,7 +254,7 @@ mod kernel {
                     s += *p.add(i) * *rp.add(i);
                     i += 1;
                 }
-                out[if PACKED { k } else { j }] = s;
+                out[if PACKED { k } else { j }] = s - sub;
                 k += 1;
             }
         }
@@ -275,6 +318,7 @@ impl NnlsWorkspace {
         self.grad.resize(n, 0.0);
         self.set.clear();
         self.b.clear();
+        self.dinv.clear();
         self.z.clear();
         self.u.clear();
         self.u_valid = 0;
@@ -283,13 +327,30 @@ impl NnlsWorkspace {
     /// Appends column `j` to the Cholesky factor; false if it is (nearly)
     /// dependent on the columns already there or the factor is full.
     #[inline(always)]
-    fn push(&mut self, e: &[f64], m: usize, f: &[f64], j: usize) -> bool {
+    fn push(&mut self, a: Mat<'_>, f: &[f64], j: usize) -> bool {
         let k = self.set.len();
         if k >= self.cap {
             return false;
         }
+        let mut col = std::mem::take(&mut self.col);
+        let ej = match a.shift {
+            None => a.col0(j),
+            Some(s) => {
+                col.clear();
+                col.extend(a.col0(j).iter().zip(s).map(|(&e, &s)| e - s));
+                &col[..]
+            }
+        };
+        let pushed = self.push_col(a, f, j, ej);
+        self.col = col;
+        pushed
+    }
+
+    /// [`push`](Self::push) with column j of E given as `ej`.
+    #[inline(always)]
+    fn push_col(&mut self, a: Mat<'_>, f: &[f64], j: usize, ej: &[f64]) -> bool {
+        let k = self.set.len();
         let cap = self.cap;
-        let ej = &e[j * m..(j + 1) * m];
         let nj = dot(ej, ej);
         if nj <= 0.0 {
             return false;
@@ -298,12 +359,12 @@ impl NnlsWorkspace {
         if self.cross.len() < k {
             self.cross.resize(k, 0.0);
         }
-        kernel::column_dots::<true>(e, m, ej, &self.set, &mut self.cross);
+        a.column_dots::<true>(ej, &self.set, &mut self.cross);
         let mut ss = 0.0;
         for i in 0..k {
             let v = self.cross[i];
             let acc = v - dot(&self.r[i * cap..i * cap + i], &self.r[k * cap..k * cap + i]);
-            let s = acc / self.r[i * cap + i];
+            let s = acc * self.dinv[i];
             self.r[k * cap + i] = s;
             ss += s * s;
         }
@@ -311,7 +372,9 @@ impl NnlsWorkspace {
         if d.is_nan() || d <= DEPENDENCE_TOL * nj {
             return false;
         }
-        self.r[k * cap + k] = d.sqrt();
+        let dk = d.sqrt();
+        self.r[k * cap + k] = dk;
+        self.dinv.push(1.0 / dk);
         self.set.push(j);
         self.b.push(dot(ej, f));
         true
@@ -321,27 +384,47 @@ impl NnlsWorkspace {
     fn pop(&mut self) {
         self.set.pop();
         self.b.pop();
+        self.dinv.pop();
         self.u_valid = self.u_valid.min(self.set.len());
     }
 
-    /// Solves RᵀR z = b into `self.z`. The forward part u = R⁻ᵀ b is kept
-    /// between calls: appending a column extends it by one entry, so only
-    /// the entries past `u_valid` are computed; the back substitution runs
-    /// column by column (contiguous access).
+    /// Brings the forward part u = R⁻ᵀ b up to date. It is kept between
+    /// calls: appending a column extends it by one entry, so only the entries
+    /// past `u_valid` are computed.
     #[inline(always)]
-    fn solve_z(&mut self) {
+    fn solve_u(&mut self) {
         let k = self.set.len();
         let cap = self.cap;
         self.u.truncate(self.u_valid.min(k));
         for i in self.u.len()..k {
             let acc = self.b[i] - dot(&self.r[i * cap..i * cap + i], &self.u[..i]);
-            self.u.push(acc / self.r[i * cap + i]);
+            self.u.push(acc * self.dinv[i]);
         }
         self.u_valid = k;
+    }
+
+    /// The last component of the least-squares solution on P, z_k = u_k / R_kk
+    /// (the first step of the back substitution, so the same number that
+    /// [`solve_z`](Self::solve_z) gives), without the rest of z.
+    #[inline(always)]
+    fn last_z(&mut self) -> Option<f64> {
+        self.solve_u();
+        let k = self.set.len();
+        let uk = *self.u.last()?;
+        Some(uk * self.dinv[k - 1])
+    }
+
+    /// Solves RᵀR z = b into `self.z` ([`solve_u`](Self::solve_u), then the
+    /// back substitution, column by column for contiguous access).
+    #[inline(always)]
+    fn solve_z(&mut self) {
+        let k = self.set.len();
+        let cap = self.cap;
+        self.solve_u();
         self.z.clear();
         self.z.extend_from_slice(&self.u);
         for i in (0..k).rev() {
-            let zi = self.z[i] / self.r[i * cap + i];
+            let zi = self.z[i] * self.dinv[i];
             self.z[i] = zi;
             let col = &self.r[i * cap..i * cap + i];
             for (zl, &rl) in self.z[..i].iter_mut().zip(col) {
@@ -374,10 +457,14 @@ impl NnlsWorkspace {
                 let a = self.r[c * cap + c];
                 let b = self.r[c * cap + c + 1];
                 let h = (a * a + b * b).sqrt();
+                let hinv = 1.0 / h;
+                // Column c's diagonal is now h (or a = 0 when there is no
+                // rotation to make); its reciprocal moves down from c + 1.
+                self.dinv[c] = hinv;
                 if h == 0.0 {
                     continue;
                 }
-                let (cs, sn) = (a / h, b / h);
+                let (cs, sn) = (a * hinv, b * hinv);
                 self.r[c * cap + c] = h;
                 self.r[c * cap + c + 1] = 0.0;
                 for j in c + 1..k - 1 {
@@ -389,6 +476,7 @@ impl NnlsWorkspace {
             }
             self.set.remove(pos);
             self.b.remove(pos);
+            self.dinv.truncate(k - 1);
             self.removals += 1;
             // The rotations changed R from column `pos` on.
             self.u_valid = self.u_valid.min(pos);
@@ -402,7 +490,7 @@ impl NnlsWorkspace {
     /// converged within its iteration limit (3n + |warm| + 10); the solution
     /// is in [`x`](Self::x) either way.
     pub fn solve(&mut self, e: &DMatrix<f64>, f: &[f64], warm: &[usize]) -> bool {
-        self.solve_impl(e, f, Start::Set(warm), &Hint::default())
+        self.solve_impl(e, None, f, Start::Set(warm), &Hint::default())
     }
 
     /// Like [`solve`](Self::solve), started from the feasible point `x0`
@@ -411,7 +499,28 @@ impl NnlsWorkspace {
     /// solution on its support, dropping only the columns that block.
     /// `hint` can spare the solver its first full pass over E.
     pub fn solve_from(&mut self, e: &DMatrix<f64>, f: &[f64], x0: &[f64], hint: &Hint<'_>) -> bool {
-        self.solve_impl(e, f, Start::Point(x0), hint)
+        self.solve_impl(e, None, f, Start::Point(x0), hint)
+    }
+
+    /// Like [`solve_from`](Self::solve_from) for the matrix E = E0 − s 1ᵀ
+    /// (the vector `shift` = s subtracted from every column of `e0`), which
+    /// is not formed. Errors if `shift` does not have one entry per row.
+    pub fn solve_shifted_from(
+        &mut self,
+        e0: &DMatrix<f64>,
+        shift: &[f64],
+        f: &[f64],
+        x0: &[f64],
+        hint: &Hint<'_>,
+    ) -> Result<bool> {
+        if shift.len() != e0.nrows() {
+            return Err(Error::Fit(format!(
+                "non-negative least squares: the matrix has {} rows but the shift {} entries",
+                e0.nrows(),
+                shift.len()
+            )));
+        }
+        Ok(self.solve_impl(e0, Some(shift), f, Start::Point(x0), hint))
     }
 
     /// The Lawson–Hanson inner loop (steps 8–11): from a feasible x with
@@ -464,20 +573,22 @@ impl NnlsWorkspace {
     fn solve_impl(
         &mut self,
         e: &DMatrix<f64>,
+        shift: Option<&[f64]>,
         f: &[f64],
         start: Start<'_>,
         hint: &Hint<'_>,
     ) -> bool {
         #[cfg(target_arch = "x86_64")]
         {
-            if std::arch::is_x86_feature_detected!("avx2")
+            if !self.portable
+                && std::arch::is_x86_feature_detected!("avx2")
                 && std::arch::is_x86_feature_detected!("fma")
             {
                 // SAFETY: the CPU supports AVX2 and FMA (checked above).
-                return unsafe { self.solve_avx2(e, f, start, hint) };
+                return unsafe { self.solve_avx2(e, shift, f, start, hint) };
             }
         }
-        self.solve_body(e, f, start, hint)
+        self.solve_body(e, shift, f, start, hint)
     }
 
     /// [`solve_body`](Self::solve_body) compiled for AVX2 and FMA, so that
@@ -491,11 +602,12 @@ impl NnlsWorkspace {
     unsafe fn solve_avx2(
         &mut self,
         e: &DMatrix<f64>,
+        shift: Option<&[f64]>,
         f: &[f64],
         start: Start<'_>,
         hint: &Hint<'_>,
     ) -> bool {
-        self.solve_body(e, f, start, hint)
+        self.solve_body(e, shift, f, start, hint)
     }
 
     /// The solver loop proper (see [`solve_impl`](Self::solve_impl)).
@@ -503,12 +615,18 @@ impl NnlsWorkspace {
     fn solve_body(
         &mut self,
         e: &DMatrix<f64>,
+        shift: Option<&[f64]>,
         f: &[f64],
         start: Start<'_>,
         hint: &Hint<'_>,
     ) -> bool {
         let (m, n) = e.shape();
-        let es = e.as_slice();
+        let a = Mat {
+            e0: e.as_slice(),
+            m,
+            shift: shift.map(|s| &s[..m]),
+            simd: !self.portable,
+        };
         self.resize(m, n);
         self.iterations = 0;
         self.removals = 0;
@@ -521,7 +639,7 @@ impl NnlsWorkspace {
             Start::Set(warm) => {
                 extra = warm.len();
                 for &j in warm {
-                    if j < n && !self.passive[j] && self.push(es, m, f, j) {
+                    if j < n && !self.passive[j] && self.push(a, f, j) {
                         self.passive[j] = true;
                     }
                 }
@@ -543,13 +661,27 @@ impl NnlsWorkspace {
                 }
             }
             Start::Point(x0) => {
-                for (j, &v) in x0.iter().enumerate().take(n) {
-                    if v > 0.0 && v.is_finite() && self.push(es, m, f, j) {
+                // Largest components first: the small ones are the likeliest
+                // to leave, and dropping a column costs O((k − pos)²) for
+                // the columns after it in the factor.
+                let mut order = std::mem::take(&mut self.scratch);
+                order.clear();
+                order.extend(
+                    x0.iter()
+                        .take(n)
+                        .enumerate()
+                        .filter(|&(_, &v)| v > 0.0 && v.is_finite())
+                        .map(|(j, &v)| (v, j)),
+                );
+                order.sort_unstable_by(|p, q| q.0.total_cmp(&p.0).then(p.1.cmp(&q.1)));
+                for &(v, j) in &order {
+                    if self.push(a, f, j) {
                         self.passive[j] = true;
                         self.x[j] = v;
                         extra += 1;
                     }
                 }
+                self.scratch = order;
                 self.inner_loop();
             }
         }
@@ -564,7 +696,7 @@ impl NnlsWorkspace {
             self.is_cand[j] = true;
             self.cand.push(j);
         }
-        self.compute_resid(es, m, f);
+        self.compute_resid(a, f);
         let tol;
         let mut fresh;
         if let (Some(col), false) = (hint.max_column_norm, hint.candidates.is_empty()) {
@@ -580,11 +712,21 @@ impl NnlsWorkspace {
             // Full dual vector at the start; its pass also gives the largest
             // column norm, which scales the tolerance.
             let mut max_col2 = 0.0_f64;
+            let mut col = std::mem::take(&mut self.col);
             for j in 0..n {
-                let (g, nn) = dot2(&es[j * m..(j + 1) * m], &self.resid);
+                let ej = match a.shift {
+                    None => a.col0(j),
+                    Some(s) => {
+                        col.clear();
+                        col.extend(a.col0(j).iter().zip(s).map(|(&e, &s)| e - s));
+                        &col[..]
+                    }
+                };
+                let (g, nn) = dot2(ej, &self.resid);
                 max_col2 = max_col2.max(nn);
                 self.grad[j] = g;
             }
+            self.col = col;
             let col = hint.max_column_norm.unwrap_or(max_col2.sqrt());
             tol = 1e-13 * (m.max(n) as f64) * col * fnorm.max(f64::MIN_POSITIVE);
             self.add_violators(tol, limit);
@@ -593,7 +735,7 @@ impl NnlsWorkspace {
 
         loop {
             if !fresh {
-                self.compute_resid(es, m, f);
+                self.compute_resid(a, f);
                 self.cols.clear();
                 for &j in &self.cand {
                     if self.passive[j] {
@@ -602,7 +744,7 @@ impl NnlsWorkspace {
                         self.cols.push(j);
                     }
                 }
-                kernel::column_dots::<false>(es, m, &self.resid, &self.cols, &mut self.grad);
+                a.column_dots::<false>(&self.resid, &self.cols, &mut self.grad);
             }
             fresh = false;
             // Bring in the most promising candidate that keeps the LS
@@ -618,13 +760,14 @@ impl NnlsWorkspace {
                     }
                 }
                 let Some(j) = best else { break false };
-                if !self.push(es, m, f, j) {
+                if !self.push(a, f, j) {
                     self.rejected[j] = true;
                     self.rejected_list.push(j);
                     continue;
                 }
-                self.solve_z();
-                if self.z.last().is_some_and(|&v| v > 0.0) {
+                // Only the sign of the new column's component decides; the
+                // inner loop below computes the whole z.
+                if self.last_z().is_some_and(|v| v > 0.0) {
                     self.passive[j] = true;
                     break true;
                 }
@@ -641,7 +784,7 @@ impl NnlsWorkspace {
                 self.full_checks += 1;
                 self.cols.clear();
                 self.cols.extend((0..n).filter(|&j| !self.is_cand[j]));
-                kernel::column_dots::<false>(es, m, &self.resid, &self.cols, &mut self.grad);
+                a.column_dots::<false>(&self.resid, &self.cols, &mut self.grad);
                 if !self.add_violators(tol, limit) {
                     return true;
                 }
@@ -656,14 +799,21 @@ impl NnlsWorkspace {
         }
     }
 
-    /// r = f − E x over the passive set.
+    /// r = f − E x over the passive set (with a shift, f − E0 x + (Σx) s).
     #[inline(always)]
-    fn compute_resid(&mut self, es: &[f64], m: usize, f: &[f64]) {
+    fn compute_resid(&mut self, a: Mat<'_>, f: &[f64]) {
         self.resid.copy_from_slice(f);
+        let mut sum = 0.0;
         for &j in &self.set {
             let xj = self.x[j];
-            for (r, &ev) in self.resid.iter_mut().zip(&es[j * m..(j + 1) * m]) {
+            sum += xj;
+            for (r, &ev) in self.resid.iter_mut().zip(a.col0(j)) {
                 *r -= xj * ev;
+            }
+        }
+        if let Some(s) = a.shift {
+            for (r, &sv) in self.resid.iter_mut().zip(s) {
+                *r += sum * sv;
             }
         }
     }
@@ -826,6 +976,103 @@ mod tests {
         assert!(ws.solve(&e, f.as_slice(), &warm));
         let x = DVector::from_column_slice(ws.x());
         assert!((x - &cold.x).norm() < 1e-9 * (1.0 + cold.x.norm()));
+    }
+
+    /// The portable column-dot code against the AVX2 kernel (the same code
+    /// twice on a CPU without AVX2), for row counts with and without a tail
+    /// and column lists with and without a partial group of four.
+    #[test]
+    fn portable_column_dots_match_simd_kernel() {
+        let mut rng = crate::fit::rng::Xoshiro256StarStar::seed_from_u64(23);
+        for m in [1, 3, 4, 7, 51, 52] {
+            let n = 13;
+            let es: Vec<f64> = (0..m * n).map(|_| rng.next_f64() - 0.5).collect();
+            let r: Vec<f64> = (0..m).map(|_| rng.next_f64() - 0.5).collect();
+            for cols in [vec![0, 5, 2, 12, 7, 1, 9, 3, 11, 4], (0..n).collect()] {
+                let mut a = vec![0.0; n];
+                let mut b = vec![0.0; n];
+                kernel::column_dots::<false>(&es, m, &r, 0.25, &cols, &mut a, true);
+                kernel::column_dots::<false>(&es, m, &r, 0.25, &cols, &mut b, false);
+                let mut pa = vec![0.0; cols.len()];
+                let mut pb = vec![0.0; cols.len()];
+                kernel::column_dots::<true>(&es, m, &r, 0.25, &cols, &mut pa, true);
+                kernel::column_dots::<true>(&es, m, &r, 0.25, &cols, &mut pb, false);
+                for (k, &j) in cols.iter().enumerate() {
+                    let exact: f64 = (0..m).map(|i| es[j * m + i] * r[i]).sum::<f64>() - 0.25;
+                    for v in [a[j], b[j], pa[k], pb[k]] {
+                        assert!((v - exact).abs() < 1e-13 * m as f64, "m {m} col {j}");
+                    }
+                }
+            }
+        }
+    }
+
+    /// The whole solver with the portable code forced, against the default
+    /// (AVX2 where the CPU has it), cold and shifted: same optimum, KKT.
+    #[test]
+    fn portable_solver_matches_default() {
+        let mut rng = crate::fit::rng::Xoshiro256StarStar::seed_from_u64(29);
+        let (m, n) = (21, 300);
+        let e0 = DMatrix::from_fn(m, n, |_, _| rng.next_f64() * 4.0 - 1.0);
+        let f = DVector::from_fn(m, |_, _| rng.next_f64() * 3.0);
+        let shift: Vec<f64> = (0..m).map(|_| rng.next_normal() * 0.3).collect();
+        let e = DMatrix::from_fn(m, n, |i, j| e0[(i, j)] - shift[i]);
+        let as_solution = |e: &DMatrix<f64>, ws: &NnlsWorkspace| {
+            let x = DVector::from_column_slice(ws.x());
+            NnlsSolution {
+                residual_norm: (e * &x - &f).norm(),
+                x,
+                passive_set: Vec::new(),
+                iterations: 0,
+            }
+        };
+        let mut fast = NnlsWorkspace::new();
+        let mut portable = NnlsWorkspace::new();
+        portable.portable = true;
+        assert!(fast.solve(&e0, f.as_slice(), &[]));
+        assert!(portable.solve(&e0, f.as_slice(), &[]));
+        let (sf, sp) = (as_solution(&e0, &fast), as_solution(&e0, &portable));
+        check_kkt(&e0, &f, &sp);
+        assert!(portable.passive_set().len() > 1);
+        assert!((&sf.x - &sp.x).norm() < 1e-9 * (1.0 + sf.x.norm()));
+        let x0 = sf.x.as_slice().to_vec();
+        let hint = Hint::default();
+        for ws in [&mut fast, &mut portable] {
+            assert!(ws
+                .solve_shifted_from(&e0, &shift, f.as_slice(), &x0, &hint)
+                .unwrap());
+        }
+        let (sf, sp) = (as_solution(&e, &fast), as_solution(&e, &portable));
+        check_kkt(&e, &f, &sp);
+        assert!((&sf.x - &sp.x).norm() < 1e-9 * (1.0 + sf.x.norm()));
+    }
+
+    #[test]
+    fn shifted_matrix_gives_same_optimum_as_formed_one() {
+        let mut rng = crate::fit::rng::Xoshiro256StarStar::seed_from_u64(17);
+        let (m, n) = (12, 80);
+        let e0 = DMatrix::from_fn(m, n, |_, _| rng.next_f64() * 4.0 - 1.0);
+        let f = DVector::from_fn(m, |_, _| rng.next_f64() * 2.0);
+        let shift: Vec<f64> = (0..m).map(|_| rng.next_normal() * 0.5).collect();
+        let e = DMatrix::from_fn(m, n, |i, j| e0[(i, j)] - shift[i]);
+        let formed = nnls(&e, &f).unwrap();
+        let x0 = vec![0.1; n];
+        let mut ws = NnlsWorkspace::new();
+        assert!(ws
+            .solve_shifted_from(&e0, &shift, f.as_slice(), &x0, &Hint::default())
+            .unwrap());
+        let x = DVector::from_column_slice(ws.x());
+        let s = NnlsSolution {
+            residual_norm: (&e * &x - &f).norm(),
+            x,
+            passive_set: Vec::new(),
+            iterations: 0,
+        };
+        check_kkt(&e, &f, &s);
+        assert!((&s.x - &formed.x).norm() < 1e-9 * (1.0 + formed.x.norm()));
+        assert!(ws
+            .solve_shifted_from(&e0, &shift[1..], f.as_slice(), &x0, &Hint::default())
+            .is_err());
     }
 
     proptest! {

@@ -111,10 +111,13 @@ impl PopulationFit {
 pub struct SimplexSolver {
     m: usize,
     n: usize,
-    /// [B − c1ᵀ ; w 1ᵀ] for the nominal data.
+    /// [B − c1ᵀ ; w 1ᵀ ; 0] for the nominal data, padded with zero rows to a
+    /// multiple of four rows so that the NNLS kernels run on whole 256-bit
+    /// vectors. Zero rows, with zeros in f and in the shift, add nothing to
+    /// any product or residual, and cannot raise the rank.
     e0: DMatrix<f64>,
-    /// Working copy for shifted data.
-    e: DMatrix<f64>,
+    /// The shift of the columns of E0 for shifted data, [δ ; 0].
+    shift: Vec<f64>,
     f: Vec<f64>,
     ws: NnlsWorkspace,
     passive: Vec<usize>,
@@ -131,7 +134,8 @@ impl SimplexSolver {
     pub fn new(problem: &Problem) -> Self {
         let (b, c) = problem.weighted();
         let (m, n) = b.shape();
-        let mut e0 = DMatrix::zeros(m + 1, n);
+        let rows = (m + 1).next_multiple_of(4);
+        let mut e0 = DMatrix::zeros(rows, n);
         let mut best = f64::INFINITY;
         let mut mean = 0.0;
         for j in 0..n {
@@ -149,13 +153,13 @@ impl SimplexSolver {
         for j in 0..n {
             e0[(m, j)] = w;
         }
-        let mut f = vec![0.0; m + 1];
+        let mut f = vec![0.0; rows];
         f[m] = w;
         SimplexSolver {
             m,
             n,
-            e: e0.clone(),
             e0,
+            shift: vec![0.0; rows],
             f,
             ws: NnlsWorkspace::new(),
             passive: Vec::new(),
@@ -239,19 +243,15 @@ impl SimplexSolver {
     /// rather than the previous resample halves the expected distance to
     /// travel (the noise of two resamples adds).
     pub fn solve_shifted(&mut self, delta: &[f64], p: &mut DVector<f64>) -> Result<()> {
-        let rows = self.m + 1;
-        {
-            let src = self.e0.as_slice();
-            let dst = self.e.as_mut_slice();
-            let m = self.m;
-            let delta = &delta[..m];
-            for (d, s) in dst.chunks_exact_mut(rows).zip(src.chunks_exact(rows)) {
-                for ((dk, &sk), &dl) in d[..m].iter_mut().zip(&s[..m]).zip(delta) {
-                    *dk = sk - dl;
-                }
-                d[m] = s[m];
-            }
+        if delta.len() != self.m {
+            return Err(Error::Fit(format!(
+                "a shifted population fit needs {} data shifts, not {}",
+                self.m,
+                delta.len()
+            )));
         }
+        // E = E0 − [δ; 0] 1ᵀ: c → c + δ shifts every column of B − c1ᵀ.
+        self.shift[..self.m].copy_from_slice(delta);
         if self.x_nominal.len() != self.n {
             self.solve()?;
         }
@@ -261,7 +261,9 @@ impl SimplexSolver {
             max_column_norm: Some(self.max_col0 + dnorm),
             candidates: &self.candidates,
         };
-        let conv = self.ws.solve_from(&self.e, &self.f, &self.x_nominal, &hint);
+        let conv =
+            self.ws
+                .solve_shifted_from(&self.e0, &self.shift, &self.f, &self.x_nominal, &hint)?;
         self.finish(conv, p)
     }
 }
