@@ -155,7 +155,13 @@ pub(crate) fn run_trajectory(a: &TrajectoryArgs) -> Result<()> {
         library: load_library(&a.params)?,
         choice: Default::default(),
         timeseries_csv: a.series.clone(),
-        checkpoints: 500,
+        // Running averages are shown only by the plot and the JSON report;
+        // the blocking analysis at each checkpoint is not worth doing else.
+        checkpoints: if a.plot.is_some() || form == OutputForm::Json {
+            trajectory::DEFAULT_CHECKPOINTS
+        } else {
+            0
+        },
         check_bonding: !a.no_bond_check,
     };
 
