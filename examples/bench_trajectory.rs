@@ -3,7 +3,8 @@
 //! prints the time and the throughput in MB/s of input. `--atoms-only`
 //! checks frames for atoms only, not bonding (the synthetic hexan-2-ol
 //! trajectory of `gen_trajectory` has unphysical close contacts from its free
-//! torsion random walks, which the bonding check refuses).
+//! torsion random walks, which the bonding check refuses). `--checkpoints`
+//! records the running averages, as `vicinal trajectory --plot` does.
 //!
 //! ```sh
 //! cargo run --release --example gen_trajectory -- /tmp/bench/hex100k.xyz 100000
@@ -21,18 +22,24 @@ fn main() -> Result<(), Box<dyn std::error::Error>> {
     let mut files = Vec::new();
     let mut top: Option<PathBuf> = None;
     let mut repeat = 1usize;
-    let mut opts = TrajectoryOptions::default();
+    // As the command line's table report: no running-average checkpoints.
+    let mut opts = TrajectoryOptions {
+        checkpoints: 0,
+        ..TrajectoryOptions::default()
+    };
     while let Some(a) = args.next() {
         match a.as_str() {
             "--top" => top = args.next().map(PathBuf::from),
             "--atoms-only" => opts.check_bonding = false,
             "--repeat" => repeat = args.next().and_then(|s| s.parse().ok()).unwrap_or(1),
+            // As `vicinal trajectory --plot` or `--as json`: running averages.
+            "--checkpoints" => opts.checkpoints = vicinal::trajectory::DEFAULT_CHECKPOINTS,
             _ => files.push(PathBuf::from(a)),
         }
     }
     if files.is_empty() {
         return Err(
-            "usage: bench_trajectory FILE... [--top TOPOLOGY.pdb] [--atoms-only] [--repeat N]"
+            "usage: bench_trajectory FILE... [--top TOPOLOGY.pdb] [--atoms-only] [--checkpoints] [--repeat N]"
                 .into(),
         );
     }
