@@ -904,8 +904,13 @@ impl<'t> Analysis<'t> {
             .zip(self.j_group.iter_mut())
             .zip(self.averagers.iter_mut())
         {
-            let s: f64 = g.members.iter().map(|&k| self.j_pair[k]).sum();
-            *jg = s / g.members.len() as f64;
+            *jg = match g.members[..] {
+                [k] => self.j_pair[k],
+                _ => {
+                    let s: f64 = g.members.iter().map(|&k| self.j_pair[k]).sum();
+                    s / g.members.len() as f64
+                }
+            };
             avg.push(*jg);
         }
         let nr = self.rings.len();
