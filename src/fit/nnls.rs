@@ -109,6 +109,20 @@ impl Mat<'_> {
         &self.e0[j * self.m..(j + 1) * self.m]
     }
 
+    /// Column j of E = E0 − s1ᵀ: a view of E0 when there is no shift, else
+    /// written into `buf`.
+    #[inline(always)]
+    fn col<'b>(&'b self, j: usize, buf: &'b mut Vec<f64>) -> &'b [f64] {
+        match self.shift {
+            None => self.col0(j),
+            Some(s) => {
+                buf.clear();
+                buf.extend(self.col0(j).iter().zip(s).map(|(&e, &s)| e - s));
+                &buf[..]
+            }
+        }
+    }
+
     /// E_j · r for every j in `cols` (into `out[j]`, or with `PACKED` into
     /// `out[k]` for the k-th entry of `cols`).
     #[inline(always)]
@@ -333,14 +347,7 @@ impl NnlsWorkspace {
             return false;
         }
         let mut col = std::mem::take(&mut self.col);
-        let ej = match a.shift {
-            None => a.col0(j),
-            Some(s) => {
-                col.clear();
-                col.extend(a.col0(j).iter().zip(s).map(|(&e, &s)| e - s));
-                &col[..]
-            }
-        };
+        let ej = a.col(j, &mut col);
         let pushed = self.push_col(a, f, j, ej);
         self.col = col;
         pushed
@@ -714,14 +721,7 @@ impl NnlsWorkspace {
             let mut max_col2 = 0.0_f64;
             let mut col = std::mem::take(&mut self.col);
             for j in 0..n {
-                let ej = match a.shift {
-                    None => a.col0(j),
-                    Some(s) => {
-                        col.clear();
-                        col.extend(a.col0(j).iter().zip(s).map(|(&e, &s)| e - s));
-                        &col[..]
-                    }
-                };
+                let ej = a.col(j, &mut col);
                 let (g, nn) = dot2(ej, &self.resid);
                 max_col2 = max_col2.max(nn);
                 self.grad[j] = g;
@@ -1007,25 +1007,41 @@ mod tests {
         }
     }
 
+    /// The workspace's last solution as an [`NnlsSolution`] of E x ≈ f (for
+    /// [`check_kkt`]).
+    fn solution_of(e: &DMatrix<f64>, f: &DVector<f64>, ws: &NnlsWorkspace) -> NnlsSolution {
+        let x = DVector::from_column_slice(ws.x());
+        NnlsSolution {
+            residual_norm: (e * &x - f).norm(),
+            x,
+            passive_set: Vec::new(),
+            iterations: 0,
+        }
+    }
+
+    /// A random m × n problem E0, f, a shift s of the rows and E = E0 − s1ᵀ.
+    #[allow(clippy::type_complexity)]
+    fn shifted_problem(
+        seed: u64,
+        m: usize,
+        n: usize,
+        f_scale: f64,
+        shift_scale: f64,
+    ) -> (DMatrix<f64>, DVector<f64>, Vec<f64>, DMatrix<f64>) {
+        let mut rng = crate::fit::rng::Xoshiro256StarStar::seed_from_u64(seed);
+        let e0 = DMatrix::from_fn(m, n, |_, _| rng.next_f64() * 4.0 - 1.0);
+        let f = DVector::from_fn(m, |_, _| rng.next_f64() * f_scale);
+        let shift: Vec<f64> = (0..m).map(|_| rng.next_normal() * shift_scale).collect();
+        let e = DMatrix::from_fn(m, n, |i, j| e0[(i, j)] - shift[i]);
+        (e0, f, shift, e)
+    }
+
     /// The whole solver with the portable code forced, against the default
     /// (AVX2 where the CPU has it), cold and shifted: same optimum, KKT.
     #[test]
     fn portable_solver_matches_default() {
-        let mut rng = crate::fit::rng::Xoshiro256StarStar::seed_from_u64(29);
-        let (m, n) = (21, 300);
-        let e0 = DMatrix::from_fn(m, n, |_, _| rng.next_f64() * 4.0 - 1.0);
-        let f = DVector::from_fn(m, |_, _| rng.next_f64() * 3.0);
-        let shift: Vec<f64> = (0..m).map(|_| rng.next_normal() * 0.3).collect();
-        let e = DMatrix::from_fn(m, n, |i, j| e0[(i, j)] - shift[i]);
-        let as_solution = |e: &DMatrix<f64>, ws: &NnlsWorkspace| {
-            let x = DVector::from_column_slice(ws.x());
-            NnlsSolution {
-                residual_norm: (e * &x - &f).norm(),
-                x,
-                passive_set: Vec::new(),
-                iterations: 0,
-            }
-        };
+        let (e0, f, shift, e) = shifted_problem(29, 21, 300, 3.0, 0.3);
+        let as_solution = |e: &DMatrix<f64>, ws: &NnlsWorkspace| solution_of(e, &f, ws);
         let mut fast = NnlsWorkspace::new();
         let mut portable = NnlsWorkspace::new();
         portable.portable = true;
@@ -1049,25 +1065,15 @@ mod tests {
 
     #[test]
     fn shifted_matrix_gives_same_optimum_as_formed_one() {
-        let mut rng = crate::fit::rng::Xoshiro256StarStar::seed_from_u64(17);
-        let (m, n) = (12, 80);
-        let e0 = DMatrix::from_fn(m, n, |_, _| rng.next_f64() * 4.0 - 1.0);
-        let f = DVector::from_fn(m, |_, _| rng.next_f64() * 2.0);
-        let shift: Vec<f64> = (0..m).map(|_| rng.next_normal() * 0.5).collect();
-        let e = DMatrix::from_fn(m, n, |i, j| e0[(i, j)] - shift[i]);
+        let n = 80;
+        let (e0, f, shift, e) = shifted_problem(17, 12, n, 2.0, 0.5);
         let formed = nnls(&e, &f).unwrap();
         let x0 = vec![0.1; n];
         let mut ws = NnlsWorkspace::new();
         assert!(ws
             .solve_shifted_from(&e0, &shift, f.as_slice(), &x0, &Hint::default())
             .unwrap());
-        let x = DVector::from_column_slice(ws.x());
-        let s = NnlsSolution {
-            residual_norm: (&e * &x - &f).norm(),
-            x,
-            passive_set: Vec::new(),
-            iterations: 0,
-        };
+        let s = solution_of(&e, &f, &ws);
         check_kkt(&e, &f, &s);
         assert!((&s.x - &formed.x).norm() < 1e-9 * (1.0 + formed.x.norm()));
         assert!(ws
