@@ -76,13 +76,19 @@ pub const JONSSON_QUANTILE: f64 = 0.99;
 /// Default number of block means kept for the drift check.
 pub const DEFAULT_STORE_CAPACITY: usize = 4096;
 
-/// Count, mean and variance of a stream of values by Welford's update
-/// (B. P. Welford, Technometrics 1962, 4, 419), numerically stable in one pass.
+/// Count, mean and variance of a stream of values in one pass, from sums of
+/// the values shifted by the first one ("assumed mean"): S₁ = Σ(xᵢ − K),
+/// S₂ = Σ(xᵢ − K)², mean = K + S₁/n, (n − 1)s² = S₂ − S₁²/n. With K a value of
+/// the series the cancellation in S₂ − S₁²/n is that of the spread of the data
+/// about K, not about 0 (Chan, Golub & LeVeque, Am. Stat. 1983, 37, 242, who
+/// analyse the shifted algorithm); unlike Welford's update it needs no
+/// division per value, which matters in the per-frame loop of a trajectory.
 #[derive(Debug, Clone, Copy, Default, PartialEq)]
 pub struct RunningStats {
     n: u64,
-    mean: f64,
-    m2: f64,
+    shift: f64,
+    s1: f64,
+    s2: f64,
     min: f64,
     max: f64,
 }
@@ -100,21 +106,30 @@ impl RunningStats {
         if !x.is_finite() {
             return;
         }
-        self.n += 1;
-        if self.n == 1 {
+        if self.n == 0 {
+            self.shift = x;
             self.min = x;
             self.max = x;
         } else {
             self.min = self.min.min(x);
             self.max = self.max.max(x);
         }
-        let d = x - self.mean;
-        self.mean += d / self.n as f64;
-        self.m2 += d * (x - self.mean);
+        self.n += 1;
+        let d = x - self.shift;
+        self.s1 += d;
+        self.s2 += d * d;
+    }
+
+    /// Σ(xᵢ − x̄)² of the values so far (0 when empty).
+    fn m2(&self) -> f64 {
+        if self.n == 0 {
+            return 0.0;
+        }
+        (self.s2 - self.s1 * self.s1 / self.n as f64).max(0.0)
     }
 
     /// Merges another accumulator into this one (Chan, Golub & LeVeque's
-    /// pairwise update, Am. Stat. 1983, 37, 242).
+    /// pairwise update, Am. Stat. 1983, 37, 242), keeping this one's shift.
     pub fn merge(&mut self, other: &RunningStats) {
         if other.n == 0 {
             return;
@@ -123,12 +138,17 @@ impl RunningStats {
             *self = *other;
             return;
         }
-        let n = self.n + other.n;
-        let d = other.mean - self.mean;
-        let mean = self.mean + d * other.n as f64 / n as f64;
-        self.m2 += other.m2 + d * d * (self.n as f64) * (other.n as f64) / n as f64;
-        self.mean = mean;
-        self.n = n;
+        let (na, nb) = (self.n as f64, other.n as f64);
+        let (ma, mb) = (self.s1 / na, other.s1 / nb);
+        // Both means relative to this shift; d is their difference.
+        let mb_here = mb + (other.shift - self.shift);
+        let d = mb_here - ma;
+        let n = na + nb;
+        let mean = ma + d * nb / n;
+        let m2 = self.m2() + other.m2() + d * d * na * nb / n;
+        self.n += other.n;
+        self.s1 = n * mean;
+        self.s2 = m2 + n * mean * mean;
         self.min = self.min.min(other.min);
         self.max = self.max.max(other.max);
     }
@@ -140,12 +160,12 @@ impl RunningStats {
 
     /// Mean, or `None` when empty.
     pub fn mean(&self) -> Option<f64> {
-        (self.n > 0).then_some(self.mean)
+        (self.n > 0).then(|| self.shift + self.s1 / self.n as f64)
     }
 
     /// Sample variance s² (divisor n − 1), or `None` with fewer than 2 values.
     pub fn variance(&self) -> Option<f64> {
-        (self.n > 1).then(|| (self.m2 / (self.n - 1) as f64).max(0.0))
+        (self.n > 1).then(|| self.m2() / (self.n - 1) as f64)
     }
 
     /// Sample standard deviation s, or `None` with fewer than 2 values.
@@ -654,6 +674,21 @@ mod tests {
         assert_eq!(a.count(), 6);
         r.push(f64::NAN);
         assert_eq!(r.count(), 6);
+        // A large common offset: the shifted sums keep the spread.
+        let big: Vec<f64> = xs.iter().map(|x| x + 1e9).collect();
+        let mut r = RunningStats::new();
+        big.iter().for_each(|&x| r.push(x));
+        assert!((r.variance().unwrap() - v).abs() < 1e-6 * v);
+        assert!((r.mean().unwrap() - (m + 1e9)).abs() < 1e-6);
+        // Merging accumulators with different shifts, and into an empty one.
+        let (mut a, mut b) = (RunningStats::new(), RunningStats::new());
+        big[..4].iter().for_each(|&x| a.push(x));
+        xs[4..].iter().for_each(|&x| b.push(x + 1e9));
+        let mut e = RunningStats::new();
+        e.merge(&a);
+        e.merge(&b);
+        assert!((e.variance().unwrap() - v).abs() < 1e-6 * v);
+        assert_eq!((e.min(), e.max()), (Some(-3.0 + 1e9), Some(10.0 + 1e9)));
     }
 
     #[test]
