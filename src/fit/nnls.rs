@@ -128,7 +128,7 @@ impl Mat<'_> {
     #[inline(always)]
     fn column_dots<const PACKED: bool>(&self, r: &[f64], cols: &[usize], out: &mut [f64]) {
         let sr = self.shift.map_or(0.0, |s| dot(s, r));
-        kernel::column_dots::<PACKED>(self.e0, self.m, r, sr, cols, out, self.simd);
+        kernel::column_dots::<PACKED>(*self, r, sr, cols, out);
     }
 }
 
@@ -157,36 +157,34 @@ fn dot(a: &[f64], b: &[f64]) -> f64 {
 /// matrix. On x86-64 CPUs with AVX2 and FMA (detected at run time) four
 /// columns share each load of r; elsewhere it falls back to [`dot`].
 mod kernel {
-    use super::dot;
+    use super::{dot, Mat};
 
-    /// Writes `E_j · r − sub` for every `j` in `cols`, where column `j` of
-    /// the column-major matrix `es` is `es[j*m..(j+1)*m]`: into `out[j]`, or
-    /// with `PACKED` into `out[k]` for the k-th entry of `cols`. Without
-    /// `simd` the portable code runs whatever the CPU.
+    /// Writes `E0_j · r − sub` for every `j` in `cols` (the column `j` of
+    /// `a.e0`): into `out[j]`, or with `PACKED` into `out[k]` for the k-th
+    /// entry of `cols`. Without `a.simd` the portable code runs whatever the
+    /// CPU.
     pub(super) fn column_dots<const PACKED: bool>(
-        es: &[f64],
-        m: usize,
+        a: Mat<'_>,
         r: &[f64],
         sub: f64,
         cols: &[usize],
         out: &mut [f64],
-        simd: bool,
     ) {
         #[cfg(target_arch = "x86_64")]
         {
-            if simd
+            if a.simd
                 && std::arch::is_x86_feature_detected!("avx2")
                 && std::arch::is_x86_feature_detected!("fma")
-                && r.len() >= m
+                && r.len() >= a.m
             {
                 // SAFETY: the CPU supports AVX2 and FMA (checked above), and
                 // r holds at least m entries (checked above).
-                unsafe { avx2::column_dots::<PACKED>(es, m, r, sub, cols, out) };
+                unsafe { avx2::column_dots::<PACKED>(a, r, sub, cols, out) };
                 return;
             }
         }
         for (k, &j) in cols.iter().enumerate() {
-            out[if PACKED { k } else { j }] = dot(&es[j * m..(j + 1) * m], r) - sub;
+            out[if PACKED { k } else { j }] = dot(a.col0(j), r) - sub;
         }
     }
 
@@ -212,13 +210,13 @@ mod kernel {
         /// The CPU must support AVX2 and FMA, and `r.len() >= m`.
         #[target_feature(enable = "avx2,fma")]
         pub(super) unsafe fn column_dots<const PACKED: bool>(
-            es: &[f64],
-            m: usize,
+            a: super::Mat<'_>,
             r: &[f64],
             sub: f64,
             cols: &[usize],
             out: &mut [f64],
         ) {
+            let (es, m) = (a.e0, a.m);
             let m4 = m - m % 4;
             let rp = r.as_ptr();
             let mut quads = cols.chunks_exact(4);
@@ -585,6 +583,13 @@ impl NnlsWorkspace {
         start: Start<'_>,
         hint: &Hint<'_>,
     ) -> bool {
+        let job = Job {
+            e,
+            shift,
+            f,
+            start,
+            hint: *hint,
+        };
         #[cfg(target_arch = "x86_64")]
         {
             if !self.portable
@@ -592,10 +597,10 @@ impl NnlsWorkspace {
                 && std::arch::is_x86_feature_detected!("fma")
             {
                 // SAFETY: the CPU supports AVX2 and FMA (checked above).
-                return unsafe { self.solve_avx2(e, shift, f, start, hint) };
+                return unsafe { self.solve_avx2(job) };
             }
         }
-        self.solve_body(e, shift, f, start, hint)
+        self.solve_body(job)
     }
 
     /// [`solve_body`](Self::solve_body) compiled for AVX2 and FMA, so that
@@ -606,27 +611,21 @@ impl NnlsWorkspace {
     /// The CPU must support AVX2 and FMA.
     #[cfg(target_arch = "x86_64")]
     #[target_feature(enable = "avx2,fma")]
-    unsafe fn solve_avx2(
-        &mut self,
-        e: &DMatrix<f64>,
-        shift: Option<&[f64]>,
-        f: &[f64],
-        start: Start<'_>,
-        hint: &Hint<'_>,
-    ) -> bool {
-        self.solve_body(e, shift, f, start, hint)
+    unsafe fn solve_avx2(&mut self, job: Job<'_>) -> bool {
+        self.solve_body(job)
     }
 
     /// The solver loop proper (see [`solve_impl`](Self::solve_impl)).
     #[inline(always)]
-    fn solve_body(
-        &mut self,
-        e: &DMatrix<f64>,
-        shift: Option<&[f64]>,
-        f: &[f64],
-        start: Start<'_>,
-        hint: &Hint<'_>,
-    ) -> bool {
+    fn solve_body(&mut self, job: Job<'_>) -> bool {
+        let Job {
+            e,
+            shift,
+            f,
+            start,
+            hint,
+        } = job;
+        let hint = &hint;
         let (m, n) = e.shape();
         let a = Mat {
             e0: e.as_slice(),
@@ -857,6 +856,15 @@ pub struct Hint<'a> {
     pub candidates: &'a [usize],
 }
 
+/// The arguments of one solve, passed whole through the CPU dispatch.
+struct Job<'a> {
+    e: &'a DMatrix<f64>,
+    shift: Option<&'a [f64]>,
+    f: &'a [f64],
+    start: Start<'a>,
+    hint: Hint<'a>,
+}
+
 /// How a solve starts.
 enum Start<'a> {
     /// From a set of columns, pruned to a positive LS solution.
@@ -988,15 +996,21 @@ mod tests {
             let n = 13;
             let es: Vec<f64> = (0..m * n).map(|_| rng.next_f64() - 0.5).collect();
             let r: Vec<f64> = (0..m).map(|_| rng.next_f64() - 0.5).collect();
+            let mat = |simd| Mat {
+                e0: &es,
+                m,
+                shift: None,
+                simd,
+            };
             for cols in [vec![0, 5, 2, 12, 7, 1, 9, 3, 11, 4], (0..n).collect()] {
                 let mut a = vec![0.0; n];
                 let mut b = vec![0.0; n];
-                kernel::column_dots::<false>(&es, m, &r, 0.25, &cols, &mut a, true);
-                kernel::column_dots::<false>(&es, m, &r, 0.25, &cols, &mut b, false);
+                kernel::column_dots::<false>(mat(true), &r, 0.25, &cols, &mut a);
+                kernel::column_dots::<false>(mat(false), &r, 0.25, &cols, &mut b);
                 let mut pa = vec![0.0; cols.len()];
                 let mut pb = vec![0.0; cols.len()];
-                kernel::column_dots::<true>(&es, m, &r, 0.25, &cols, &mut pa, true);
-                kernel::column_dots::<true>(&es, m, &r, 0.25, &cols, &mut pb, false);
+                kernel::column_dots::<true>(mat(true), &r, 0.25, &cols, &mut pa);
+                kernel::column_dots::<true>(mat(false), &r, 0.25, &cols, &mut pb);
                 for (k, &j) in cols.iter().enumerate() {
                     let exact: f64 = (0..m).map(|i| es[j * m + i] * r[i]).sum::<f64>() - 0.25;
                     for v in [a[j], b[j], pa[k], pb[k]] {

@@ -132,6 +132,22 @@ fn leading_digits(w: u64) -> (usize, u64) {
     (k, (v1.wrapping_add(v2) >> 32) as u32 as u64)
 }
 
+/// An optional sign at `s[*i]`: true for `-`; steps `*i` past a `-` or `+`.
+#[inline(always)]
+fn sign_at(s: &[u8], i: &mut usize) -> bool {
+    match s.get(*i) {
+        Some(b'-') => {
+            *i += 1;
+            true
+        }
+        Some(b'+') => {
+            *i += 1;
+            false
+        }
+        _ => false,
+    }
+}
+
 #[inline(always)]
 fn is_blank_or_end(line: &[u8], i: usize) -> bool {
     line.get(i).is_none_or(|&b| is_blank(b))
@@ -162,17 +178,7 @@ fn plain_decimal_ending<const NEWLINE_ENDS: bool>(
     line: &[u8],
     mut i: usize,
 ) -> Option<(f64, usize)> {
-    let neg = match line.get(i) {
-        Some(b'-') => {
-            i += 1;
-            true
-        }
-        Some(b'+') => {
-            i += 1;
-            false
-        }
-        _ => false,
-    };
+    let neg = sign_at(line, &mut i);
     // Integer parts of coordinates are short: a byte loop beats a word here.
     let int_start = i;
     let mut mant: u64 = 0;
@@ -232,17 +238,7 @@ fn fast(tok: &[u8]) -> Option<f64> {
 fn fast_prefix(s: &[u8]) -> Option<(f64, usize)> {
     let n = s.len();
     let mut i = 0;
-    let neg = match s.first() {
-        Some(b'-') => {
-            i = 1;
-            true
-        }
-        Some(b'+') => {
-            i = 1;
-            false
-        }
-        _ => false,
-    };
+    let neg = sign_at(s, &mut i);
     let mut mant: u64 = 0;
     let int_start = i;
     while i < n {
@@ -286,17 +282,7 @@ fn fast_prefix(s: &[u8]) -> Option<(f64, usize)> {
     let mut exp: i64 = 0;
     if i < n && (s[i] | 0x20) == b'e' {
         let mut j = i + 1;
-        let eneg = match s.get(j) {
-            Some(b'-') => {
-                j += 1;
-                true
-            }
-            Some(b'+') => {
-                j += 1;
-                false
-            }
-            _ => false,
-        };
+        let eneg = sign_at(s, &mut j);
         let start = j;
         while j < n {
             let d = s[j].wrapping_sub(b'0');

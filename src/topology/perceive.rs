@@ -227,23 +227,7 @@ impl FrameChecker {
         let top = &self.top;
         match top.bond_source {
             BondSource::Distance => {
-                for b in &top.bonds {
-                    let d = (coords[b.a] - coords[b.b]).norm();
-                    let cut = self.radii[b.a] + self.radii[b.b] + BOND_TOLERANCE_A;
-                    if d > cut {
-                        return Err(conformer_err(
-                            frame,
-                            conformer,
-                            format!(
-                                "bond {}–{} is broken ({:.2} Å; bonded up to {:.2} Å)",
-                                label(frame, b.a),
-                                label(frame, b.b),
-                                d,
-                                cut
-                            ),
-                        ));
-                    }
-                }
+                self.check_bond_lengths(frame, conformer)?;
                 let radii = &self.radii;
                 self.grid.scan(coords, radii, |i, j, d2| {
                     if d2 < DUPLICATE_DISTANCE_A * DUPLICATE_DISTANCE_A {
