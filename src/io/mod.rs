@@ -15,6 +15,7 @@ pub(crate) mod lines;
 pub mod number;
 pub mod pdb;
 pub mod sdf;
+pub(crate) mod window;
 pub mod xyz;
 
 /// A conformer file format.

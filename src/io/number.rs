@@ -9,6 +9,8 @@
 //! (long significands, large exponents, `inf`, `nan`, odd syntax) goes to the
 //! standard library's correctly rounded parser.
 
+use super::window::Classes;
+
 /// Exact powers of ten representable as `f64` (10^0 ..= 10^22).
 const POW10: [f64; 23] = [
     1e0, 1e1, 1e2, 1e3, 1e4, 1e5, 1e6, 1e7, 1e8, 1e9, 1e10, 1e11, 1e12, 1e13, 1e14, 1e15, 1e16,
@@ -148,6 +150,13 @@ fn sign_at(s: &[u8], i: &mut usize) -> bool {
     }
 }
 
+/// `v` (not negative) with its sign bit set when `neg`: `-v` without a
+/// branch, which the random signs of coordinates would mispredict.
+#[inline(always)]
+fn with_sign(v: f64, neg: bool) -> f64 {
+    f64::from_bits(v.to_bits() | (u64::from(neg) << 63))
+}
+
 #[inline(always)]
 fn is_blank_or_end(line: &[u8], i: usize) -> bool {
     line.get(i).is_none_or(|&b| is_blank(b))
@@ -217,7 +226,69 @@ fn plain_decimal_ending<const NEWLINE_ENDS: bool>(
     }
     let m = mant as f64;
     let v = if frac == 0 { m } else { m / POW10[frac] };
-    Some((if neg { -v } else { v }, i))
+    Some((with_sign(v, neg), i))
+}
+
+/// The plain decimal at `buf[s..=e]`, a field already cut out by a caller
+/// that has `classes`, the byte classes of `buf[..64]`
+/// ([`crate::io::window::classify`]), with `e < 63`: an optional `-`, at most
+/// 8 integer digits, optionally a point and at most 8 fraction digits, at
+/// least one digit in all. The integer and fraction digits are taken as whole
+/// words, without a loop over the bytes. Returns `None` for any other field
+/// (which the caller hands to the general parser) and otherwise the Clinger
+/// fast path's value, so exactly what `str::parse::<f64>` gives.
+#[inline(always)]
+pub(crate) fn masked_decimal(buf: &[u8], classes: &Classes, s: u32, e: u32) -> Option<f64> {
+    const ZEROS: u64 = 0x3030_3030_3030_3030;
+    let field = (u64::MAX >> (63 - e)) & (u64::MAX << s);
+    let neg = (classes.minus >> s) & 1 == 1;
+    let body = field & !(classes.minus & (1u64 << s));
+    // Every byte of the body is a digit but at most one, which is the point.
+    let other = body & !classes.digit;
+    if other & !classes.dot != 0 || other & other.wrapping_sub(1) != 0 {
+        return None;
+    }
+    let first = s + u32::from(neg);
+    let (int_end, k_frac) = if other == 0 {
+        (e + 1, 0)
+    } else {
+        let p = other.trailing_zeros();
+        (p, e - p)
+    };
+    let k_int = int_end - first;
+    if k_int + k_frac == 0 || k_int > 8 || k_frac > 8 {
+        return None;
+    }
+    // The integer digits end at `int_end`: load the word that ends there (or
+    // the window's first word), move the last digit to the top byte, and make
+    // the bytes below the k_int digits '0' (leading zeros).
+    let base = int_end.max(8) - 8;
+    // (With no integer digits the shift may be 64 bits; `keep` is 0 then.)
+    let w = load8(buf, base as usize)?.wrapping_shl(8 * (8 + base - int_end));
+    let keep = u64::MAX.checked_shl(8 * (8 - k_int)).unwrap_or(0);
+    let int = parse_8_digits((w & keep) | (ZEROS & !keep));
+    let frac = if k_frac == 0 {
+        0
+    } else {
+        // The fraction digits are the low k_frac bytes of the word after the
+        // point; subtracting '0' first keeps the borrows out of them, then
+        // the shift drops the bytes past the field.
+        let w = load8(buf, int_end as usize + 1)?;
+        let d = w.wrapping_sub(ZEROS) << (8 * (8 - k_frac));
+        const MASK: u64 = 0x0000_00FF_0000_00FF;
+        const MUL1: u64 = 0x000F_4240_0000_0064;
+        const MUL2: u64 = 0x0000_2710_0000_0001;
+        let v = d.wrapping_mul(10).wrapping_add(d >> 8);
+        let v1 = (v & MASK).wrapping_mul(MUL1);
+        let v2 = ((v >> 16) & MASK).wrapping_mul(MUL2);
+        (v1.wrapping_add(v2) >> 32) as u32 as u64
+    };
+    let mant = int * POW10_U64[k_frac as usize] + frac;
+    if mant > MAX_EXACT {
+        return None;
+    }
+    let v = mant as f64 / POW10[k_frac as usize];
+    Some(with_sign(v, neg))
 }
 
 /// The Clinger fast path on a whole token; `None` when the token is not a
@@ -319,7 +390,7 @@ fn fast_prefix(s: &[u8]) -> Option<(f64, usize)> {
     } else {
         return None;
     };
-    Some((if neg { -v } else { v }, i))
+    Some((with_sign(v, neg), i))
 }
 
 /// Length of the longest prefix of `s` that looks like a decimal number

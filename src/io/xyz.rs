@@ -14,7 +14,8 @@
 //! comment line that is a single bare number is the energy. Otherwise the
 //! frame has no energy. XYZ carries no atom names, charges or bonds.
 //!
-//! Speed: lines are cut from a 1 MiB block buffer, numbers are parsed from
+//! Speed: lines are cut from a 1 MiB block buffer; the common atom line is
+//! read in place with byte-class masks (`io::window`), the rest is parsed from
 //! bytes by [`crate::io::number::parse_f64`], and the frame's vectors are
 //! cleared and refilled, so reading allocates nothing per frame once the first
 //! frame has sized the buffers (the title `String` and the `names` entries keep
@@ -25,7 +26,8 @@ use std::path::PathBuf;
 
 use super::lines::{show, trim, Lines};
 use super::number::{
-    number_prefix_len, parse_f64, parse_f64_field, plain_decimal_at, plain_decimal_before_newline,
+    masked_decimal, number_prefix_len, parse_f64, parse_f64_field, plain_decimal_at,
+    plain_decimal_before_newline,
 };
 use super::{element_from_bytes, finish_names, Frame, FrameReader, ReadOptions};
 use crate::error::{Error, Result};
@@ -170,7 +172,8 @@ impl FrameReader for XyzReader {
         frame.elements.reserve(n);
         frame.coords.reserve(n);
         for k in 0..n {
-            if let Some((el, xyz, len)) = plain_atom_line(self.lines.rest()) {
+            let rest = self.lines.rest();
+            if let Some((el, xyz, len)) = masked_atom_line(rest).or_else(|| plain_atom_line(rest)) {
                 self.lines.consume(len);
                 frame.elements.push(el);
                 frame.coords.push(xyz);
@@ -228,6 +231,50 @@ impl FrameReader for XyzReader {
         self.frames += 1;
         Ok(true)
     }
+}
+
+/// The common atom line found with byte-class masks
+/// ([`super::window::classify`]) when the line and its `\n` lie within the
+/// first 64 bytes of `buf`: exactly four space-separated fields (blanks other
+/// than the space are left to [`plain_atom_line`]), an element symbol or
+/// number of one or two bytes and three [`masked_decimal`]s. Returns the
+/// element, the coordinates in Å and the line's length with its `\n`; `None`
+/// for anything else.
+#[inline(always)]
+fn masked_atom_line(buf: &[u8]) -> Option<(super::Element, Vec3, usize)> {
+    let window: &[u8; 64] = buf.get(..64)?.try_into().ok()?;
+    let c = super::window::classify(window);
+    if c.newline == 0 {
+        return None;
+    }
+    let len = c.newline.trailing_zeros();
+    let solid = ((1u64 << len) - 1) & !c.space;
+    let mut starts = solid & !(solid << 1);
+    let mut ends = solid & !(solid >> 1);
+    let mut field = || -> Option<(u32, u32)> {
+        if starts == 0 {
+            return None;
+        }
+        let f = (starts.trailing_zeros(), ends.trailing_zeros());
+        starts &= starts - 1;
+        ends &= ends - 1;
+        Some(f)
+    };
+    let (s0, e0) = field()?;
+    if e0 - s0 > 1 {
+        return None;
+    }
+    let el = element_from_bytes(buf.get(s0 as usize..e0 as usize + 1)?)?;
+    let (s, e) = field()?;
+    let x = masked_decimal(buf, &c, s, e)?;
+    let (s, e) = field()?;
+    let y = masked_decimal(buf, &c, s, e)?;
+    let (s, e) = field()?;
+    let z = masked_decimal(buf, &c, s, e)?;
+    if field().is_some() {
+        return None;
+    }
+    Some((el, Vec3::new(x, y, z), len as usize + 1))
 }
 
 /// The common atom line, read in place from the buffered input `buf` in one
@@ -494,6 +541,95 @@ mod tests {
                 for k in 0..3 {
                     assert_eq!(p[k].to_bits(), q[k].to_bits());
                 }
+            }
+        }
+    }
+
+    /// What a line means by the general definition (whitespace-separated
+    /// fields, std's float parser): the element and coordinates of a line of
+    /// exactly four fields, or `None`.
+    fn by_definition(line: &str) -> Option<(Element, [u64; 3])> {
+        let t: Vec<&str> = line.split_ascii_whitespace().collect();
+        if t.len() != 4 {
+            return None;
+        }
+        let el = element_from_bytes(t[0].as_bytes())?;
+        let mut v = [0u64; 3];
+        for (slot, tok) in v.iter_mut().zip(&t[1..]) {
+            *slot = tok.parse::<f64>().ok()?.to_bits();
+        }
+        Some((el, v))
+    }
+
+    fn masked(line: &str) -> Option<(Element, [u64; 3], usize)> {
+        // The buffer runs on past the line, as in the reader.
+        let buf = format!("{line}\nC 1.0 2.0 3.0\n{}", " ".repeat(64));
+        masked_atom_line(buf.as_bytes())
+            .map(|(el, c, len)| (el, [c.x.to_bits(), c.y.to_bits(), c.z.to_bits()], len))
+    }
+
+    #[test]
+    fn masked_path_takes_the_common_layouts() {
+        for line in [
+            "C     2.665123     0.572493    -0.778180",
+            "H    -0.000000    12.345678  -123.456789",
+            "Cl 1 -2 3.",
+            "  o   .5   -.25   7",
+            "6   12345678.12345678   -0.1 0.2",
+        ] {
+            let (el, v, len) = masked(line).unwrap_or_else(|| panic!("not taken: {line}"));
+            assert_eq!(Some((el, v)), by_definition(line), "{line}");
+            assert_eq!(len, line.len() + 1);
+        }
+        // Left to the general path: tabs, CR, extra columns, long or signed
+        // fields, exponents, lines that do not end within 64 bytes.
+        for line in [
+            "C\t1.0 2.0 3.0",
+            "C 1.0 2.0 3.0\r",
+            "C 1.0 2.0 3.0 4.0",
+            "C 123456789.0 2.0 3.0",
+            "C 1.123456789 2.0 3.0",
+            "C +1.0 2.0 3.0",
+            "C 1e3 2.0 3.0",
+            "C - 2.0 3.0",
+            "C . 2.0 3.0",
+            "C 1..0 2.0 3.0",
+            "C 1.0- 2.0 3.0",
+            "Cxx 1.0 2.0 3.0",
+            "C 1.0 2.0",
+            "C                              1.0             2.0                3.0",
+        ] {
+            assert_eq!(masked(line), None, "{line}");
+        }
+    }
+
+    proptest::proptest! {
+        /// Wherever the masked path takes a line, it gives exactly what the
+        /// general definition gives (bit for bit), and the line's length.
+        #[test]
+        fn masked_path_agrees_with_the_definition(
+            lead in "[ ]{0,4}",
+            sym in proptest::sample::select(vec!["C", "h", "Cl", "BR", "6", "17", "Xx", "C1", "-"]),
+            fields in proptest::collection::vec(
+                ("[-+]?", "[0-9]{0,10}", proptest::option::of("[0-9]{0,10}"), "( |  |\t|     )"),
+                2..5,
+            ),
+            tail in "( |\r)?",
+        ) {
+            let mut line = format!("{lead}{sym}");
+            for (sign, int, frac, sep) in &fields {
+                line.push_str(sep);
+                line.push_str(sign);
+                line.push_str(int);
+                if let Some(f) = frac {
+                    line.push('.');
+                    line.push_str(f);
+                }
+            }
+            line.push_str(&tail);
+            if let Some((el, v, len)) = masked(&line) {
+                proptest::prop_assert_eq!(Some((el, v)), by_definition(&line), "{}", line);
+                proptest::prop_assert_eq!(len, line.len() + 1);
             }
         }
     }

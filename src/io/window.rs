@@ -1,0 +1,108 @@
+//! Byte classes of a 64-byte window as bit masks (bit k stands for byte k),
+//! for parsers that find a line's fields with bit operations instead of a
+//! byte loop. On x86_64 the masks come from SSE2 compares (16 bytes at a
+//! time; SSE2 is part of the x86_64 baseline, so no run-time check is
+//! needed); elsewhere from a plain byte loop that gives the same masks.
+
+/// The classes of the 64 bytes of a window, one bit per byte.
+#[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
+pub(crate) struct Classes {
+    /// `' '` (only the space: tabs and other blanks are left to slower paths).
+    pub(crate) space: u64,
+    /// `'0'..='9'`.
+    pub(crate) digit: u64,
+    /// `'.'`.
+    pub(crate) dot: u64,
+    /// `'-'`.
+    pub(crate) minus: u64,
+    /// `'\n'`.
+    pub(crate) newline: u64,
+}
+
+/// The byte classes of `w`.
+#[inline(always)]
+pub(crate) fn classify(w: &[u8; 64]) -> Classes {
+    #[cfg(target_arch = "x86_64")]
+    {
+        sse2::classify(w)
+    }
+    #[cfg(not(target_arch = "x86_64"))]
+    {
+        classify_bytes(w)
+    }
+}
+
+/// [`classify`] one byte at a time: the portable definition of the masks.
+#[cfg_attr(target_arch = "x86_64", allow(dead_code))]
+#[inline]
+pub(crate) fn classify_bytes(w: &[u8; 64]) -> Classes {
+    let mut c = Classes::default();
+    for (k, &b) in w.iter().enumerate() {
+        let bit = 1u64 << k;
+        match b {
+            b' ' => c.space |= bit,
+            b'0'..=b'9' => c.digit |= bit,
+            b'.' => c.dot |= bit,
+            b'-' => c.minus |= bit,
+            b'\n' => c.newline |= bit,
+            _ => {}
+        }
+    }
+    c
+}
+
+#[cfg(target_arch = "x86_64")]
+mod sse2 {
+    use super::Classes;
+    use std::arch::x86_64::{
+        __m128i, _mm_and_si128, _mm_cmpeq_epi8, _mm_cmpgt_epi8, _mm_cmplt_epi8, _mm_loadu_si128,
+        _mm_movemask_epi8, _mm_set1_epi8,
+    };
+
+    #[inline(always)]
+    pub(super) fn classify(w: &[u8; 64]) -> Classes {
+        let mut c = Classes::default();
+        for k in 0..4 {
+            let shift = 16 * k as u32;
+            // SAFETY: SSE2 is part of the x86_64 baseline, so its intrinsics
+            // can run on every x86_64 machine; bytes 16k..16k + 16 lie inside
+            // the 64-byte array, and `_mm_loadu_si128` takes any alignment.
+            unsafe {
+                let v = _mm_loadu_si128(w.as_ptr().add(16 * k).cast::<__m128i>());
+                let bits = |m: __m128i| u64::from(_mm_movemask_epi8(m) as u16) << shift;
+                // Signed byte compares: bytes >= 0x80 are negative, so never digits.
+                let digit = _mm_and_si128(
+                    _mm_cmpgt_epi8(v, _mm_set1_epi8(b'0' as i8 - 1)),
+                    _mm_cmplt_epi8(v, _mm_set1_epi8(b'9' as i8 + 1)),
+                );
+                c.space |= bits(_mm_cmpeq_epi8(v, _mm_set1_epi8(b' ' as i8)));
+                c.digit |= bits(digit);
+                c.dot |= bits(_mm_cmpeq_epi8(v, _mm_set1_epi8(b'.' as i8)));
+                c.minus |= bits(_mm_cmpeq_epi8(v, _mm_set1_epi8(b'-' as i8)));
+                c.newline |= bits(_mm_cmpeq_epi8(v, _mm_set1_epi8(b'\n' as i8)));
+            }
+        }
+        c
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn every_byte_value_in_every_position() {
+        // Each byte value 0..=255 at each of the 64 positions, the rest a mix.
+        for b in 0..=255u8 {
+            for k in 0..64 {
+                let mut w = [0u8; 64];
+                const MIX: &[u8] = b"C  -12.5\n\t\r+eE09./ ";
+                for (j, x) in w.iter_mut().enumerate() {
+                    *x = MIX[j % MIX.len()];
+                }
+                w[k] = b;
+                assert_eq!(classify(&w), classify_bytes(&w), "byte {b:#04x} at {k}");
+            }
+        }
+    }
+}
