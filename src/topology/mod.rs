@@ -7,6 +7,7 @@ use crate::io::{Bond, BondOrder, Frame};
 pub mod hybrid;
 pub mod perceive;
 pub mod rings;
+mod screen;
 
 /// Hybridisation of an atom, from bond orders where the file gives them, else
 /// from geometry (neighbour count and bond angles).

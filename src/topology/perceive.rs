@@ -8,6 +8,7 @@
 //! Pairs are found with a cell grid, so perception and the per-conformer check
 //! are O(n) in the number of atoms.
 
+use super::screen::PairScreen;
 use super::{atoms_of, hybrid, rings, BondSource, Topology};
 use crate::elements::Element;
 use crate::error::{Error, Result};
@@ -154,12 +155,10 @@ pub struct FrameChecker {
     radii: Vec<f64>,
     grid: GridScan,
     sorted_bonds: Vec<(usize, usize, BondOrder)>,
-    /// For small molecules, per pair i < j (row-major upper triangle): the
-    /// squared distance below which the pair needs a closer look (a new bond,
-    /// or duplicate atoms). Empty for large molecules, which use the grid.
-    pair_alarm2: Vec<f64>,
-    /// Per-frame scratch of the fast path: x, y and z as three arrays.
-    soa: Vec<f64>,
+    /// For small molecules with distance-perceived bonds: the single-precision
+    /// screen that passes the usual frame without the exact checks. `None`
+    /// for large molecules, which use the grid, and for bonds from the file.
+    screen: Option<PairScreen>,
 }
 
 impl FrameChecker {
@@ -174,15 +173,33 @@ impl FrameChecker {
                 .collect(),
             grid: GridScan::default(),
             sorted_bonds: Vec::new(),
-            pair_alarm2: pair_alarms(top),
-            soa: Vec::new(),
+            screen: pair_screen(top),
         }
     }
 
     /// Checks one frame; see [`check_frame`].
     pub fn check(&mut self, frame: &Frame, conformer: usize) -> Result<()> {
+        if self.same_elements(frame) && self.screen_clear(frame) {
+            return Ok(());
+        }
         self.check_atoms(frame, conformer)?;
-        self.check_bonds(frame, conformer)
+        self.check_bonds_exact(frame, conformer)
+    }
+
+    /// True when the frame has the topology's elements in the same order.
+    fn same_elements(&self, frame: &Frame) -> bool {
+        frame.elements.len() == self.top.len()
+            && frame
+                .elements
+                .iter()
+                .zip(&self.top.atoms)
+                .all(|(e, a)| *e == a.element)
+    }
+
+    /// True when the pair screen passes the frame: finite coordinates, every
+    /// bond within its cutoff, no new bond, no duplicate atoms.
+    fn screen_clear(&mut self, frame: &Frame) -> bool {
+        self.screen.as_mut().is_some_and(|s| s.clear(&frame.coords))
     }
 
     /// Checks atom count, elements and finite coordinates only.
@@ -217,13 +234,16 @@ impl FrameChecker {
     /// Checks bonding only (and duplicate atoms); assumes
     /// [`check_atoms`](Self::check_atoms) passed.
     pub fn check_bonds(&mut self, frame: &Frame, conformer: usize) -> Result<()> {
-        let coords = &frame.coords;
-        if self.top.bond_source == BondSource::Distance
-            && !self.pair_alarm2.is_empty()
-            && self.quick_pairs_ok(coords)
-        {
-            return self.check_bond_lengths(frame, conformer);
+        if self.screen_clear(frame) {
+            return Ok(());
         }
+        self.check_bonds_exact(frame, conformer)
+    }
+
+    /// [`check_bonds`](Self::check_bonds) in double precision, naming the
+    /// first offending atoms.
+    fn check_bonds_exact(&mut self, frame: &Frame, conformer: usize) -> Result<()> {
+        let coords = &frame.coords;
         let top = &self.top;
         match top.bond_source {
             BondSource::Distance => {
@@ -277,38 +297,6 @@ impl FrameChecker {
                 Ok(())
             }
         }
-    }
-
-    /// Fast path for small molecules: true when no pair comes closer than its
-    /// alarm distance (no new bond, no duplicate atoms). When it is false the
-    /// full scan runs and names the atoms.
-    fn quick_pairs_ok(&mut self, coords: &[Vec3]) -> bool {
-        let n = coords.len();
-        // Coordinates as three arrays and no early exit, so that the inner
-        // loop over j > i can run in vector lanes.
-        let soa = &mut self.soa;
-        soa.clear();
-        soa.extend(coords.iter().map(|c| c.x));
-        soa.extend(coords.iter().map(|c| c.y));
-        soa.extend(coords.iter().map(|c| c.z));
-        let (xs, rest) = soa.split_at(n);
-        let (ys, zs) = rest.split_at(n);
-        let mut k = 0;
-        let mut close = false;
-        for i in 0..n {
-            let (xi, yi, zi) = (xs[i], ys[i], zs[i]);
-            let m = n - i - 1;
-            let (xj, yj, zj) = (&xs[i + 1..n], &ys[i + 1..n], &zs[i + 1..n]);
-            let aj = &self.pair_alarm2[k..k + m];
-            let mut hit = false;
-            for j in 0..m {
-                let (dx, dy, dz) = (xj[j] - xi, yj[j] - yi, zj[j] - zi);
-                hit |= dx * dx + dy * dy + dz * dz < aj[j];
-            }
-            close |= hit;
-            k += m;
-        }
-        !close
     }
 
     /// Every bond of the topology still within its cutoff.
@@ -496,31 +484,31 @@ fn file_bonds(frame: &Frame) -> Result<Vec<Bond>> {
 /// keeps memory O(n) for sparse inputs (molecules far apart).
 const MAX_CELLS_PER_ATOM: usize = 8;
 
-/// Alarm distances for the small-molecule fast path of [`FrameChecker`]: for
-/// a bonded pair or two hydrogens, the duplicate-atom distance; otherwise the
-/// bond cutoff (a closer approach would be a new bond). Empty above
-/// [`BRUTE_FORCE_MAX_ATOMS`] atoms or for bonds from the file.
-fn pair_alarms(top: &Topology) -> Vec<f64> {
+/// The pair screen of [`FrameChecker`] for a small molecule with
+/// distance-perceived bonds: alarm distance, for a bonded pair or two
+/// hydrogens, the duplicate-atom distance, otherwise the bond cutoff (a closer
+/// approach would be a new bond); and for bonded pairs the bond cutoff. `None`
+/// above [`BRUTE_FORCE_MAX_ATOMS`] atoms or for bonds from the file.
+fn pair_screen(top: &Topology) -> Option<PairScreen> {
     let n = top.len();
     if n > BRUTE_FORCE_MAX_ATOMS || top.bond_source != BondSource::Distance {
-        return Vec::new();
+        return None;
     }
-    let dup2 = DUPLICATE_DISTANCE_A * DUPLICATE_DISTANCE_A;
-    let mut v = Vec::with_capacity(n * n.saturating_sub(1) / 2);
-    for i in 0..n {
-        for j in i + 1..n {
-            let both_h = top.atoms[i].element.is_hydrogen() && top.atoms[j].element.is_hydrogen();
-            if both_h || top.bonded(i, j) {
-                v.push(dup2);
-            } else {
-                let cut = top.atoms[i].element.covalent_radius()
-                    + top.atoms[j].element.covalent_radius()
-                    + BOND_TOLERANCE_A;
-                v.push((cut * cut).max(dup2));
-            }
+    let cut = |i: usize, j: usize| {
+        top.atoms[i].element.covalent_radius()
+            + top.atoms[j].element.covalent_radius()
+            + BOND_TOLERANCE_A
+    };
+    let alarm = |i: usize, j: usize| {
+        let both_h = top.atoms[i].element.is_hydrogen() && top.atoms[j].element.is_hydrogen();
+        if both_h || top.bonded(i, j) {
+            DUPLICATE_DISTANCE_A
+        } else {
+            cut(i, j).max(DUPLICATE_DISTANCE_A)
         }
-    }
-    v
+    };
+    let cutoff = |i: usize, j: usize| top.bonded(i, j).then(|| cut(i, j));
+    Some(PairScreen::new(n, alarm, cutoff))
 }
 
 /// Up to this many atoms, pair scans test every pair instead of a cell grid

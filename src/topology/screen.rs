@@ -1,0 +1,293 @@
+//! A conservative single-precision screen of every atom pair of a small
+//! molecule, so that [`super::perceive::FrameChecker`] can pass the usual
+//! frame of a trajectory without the exact double-precision checks.
+//!
+//! The screen never passes a frame that the exact checks would reject: it
+//! flags every pair that might be closer than its alarm distance (a new bond
+//! or duplicate atoms) or, for a bond, longer than its cutoff, with a margin
+//! of [`MARGIN_A`] that is far larger than the error of the single-precision
+//! arithmetic for coordinates up to [`MAX_COORD_A`] in size; a frame with a
+//! larger or non-finite coordinate is not screened at all. A frame with any
+//! flag goes to the exact checks, which decide and name the atoms.
+
+use crate::geometry::Vec3;
+
+/// Margin (Å) by which the screen widens every alarm distance and narrows
+/// every bond cutoff.
+pub(crate) const MARGIN_A: f64 = 0.02;
+
+/// Largest coordinate size (Å) the screen accepts. There a coordinate's
+/// rounding to `f32` is at most 2⁻¹¹ Å, so a distance of the few Å that
+/// matter is off by less than 0.002 Å, a tenth of [`MARGIN_A`].
+pub(crate) const MAX_COORD_A: f64 = 1.0e4;
+
+/// Lanes of the pair loop; rows of the pair table are padded to a multiple.
+const LANES: usize = 4;
+
+/// The pair table and scratch of the screen for one molecule.
+#[derive(Debug, Clone)]
+pub(crate) struct PairScreen {
+    n: usize,
+    /// Per atom i: start of its row (pairs i–j, j > i) in `lo2` and `hi2`,
+    /// and the row's length padded to a multiple of [`LANES`].
+    rows: Vec<(usize, usize)>,
+    /// Per pair: squared widened alarm distance (flag when closer).
+    lo2: Vec<f32>,
+    /// Per pair: squared narrowed bond cutoff (flag when farther); +∞ for
+    /// pairs that are not bonded.
+    hi2: Vec<f32>,
+    /// Coordinates as three `f32` arrays, each padded with [`LANES`] zeros.
+    xs: Vec<f32>,
+    ys: Vec<f32>,
+    zs: Vec<f32>,
+}
+
+impl PairScreen {
+    /// A screen for `n` atoms. `alarm(i, j)` is the exact alarm distance of
+    /// pair i < j in Å, `cutoff(i, j)` its bond cutoff in Å if bonded.
+    pub(crate) fn new(
+        n: usize,
+        alarm: impl Fn(usize, usize) -> f64,
+        cutoff: impl Fn(usize, usize) -> Option<f64>,
+    ) -> PairScreen {
+        let mut rows = Vec::with_capacity(n);
+        let (mut lo2, mut hi2) = (Vec::new(), Vec::new());
+        for i in 0..n {
+            let m = n - i - 1;
+            let padded = m.div_ceil(LANES) * LANES;
+            rows.push((lo2.len(), padded));
+            for j in i + 1..i + 1 + padded {
+                if j < n {
+                    let a = alarm(i, j) + MARGIN_A;
+                    lo2.push((a * a) as f32);
+                    hi2.push(match cutoff(i, j) {
+                        Some(c) => ((c - MARGIN_A).max(0.0).powi(2)) as f32,
+                        None => f32::INFINITY,
+                    });
+                } else {
+                    // Padding: never flagged.
+                    lo2.push(-1.0);
+                    hi2.push(f32::INFINITY);
+                }
+            }
+        }
+        let pad = vec![0.0f32; n + LANES];
+        PairScreen {
+            n,
+            rows,
+            lo2,
+            hi2,
+            xs: pad.clone(),
+            ys: pad.clone(),
+            zs: pad,
+        }
+    }
+
+    /// True when no pair of `coords` is flagged (see the module docs); false
+    /// when some pair is, or a coordinate is too large or not finite, or the
+    /// atom count differs.
+    pub(crate) fn clear(&mut self, coords: &[Vec3]) -> bool {
+        let n = self.n;
+        if coords.len() != n {
+            return false;
+        }
+        // False for NaN too, as every comparison with NaN is.
+        let fits = |v: f64| v.abs() <= MAX_COORD_A;
+        let mut all_fit = true;
+        for (k, c) in coords.iter().enumerate() {
+            all_fit &= fits(c.x) & fits(c.y) & fits(c.z);
+            self.xs[k] = c.x as f32;
+            self.ys[k] = c.y as f32;
+            self.zs[k] = c.z as f32;
+        }
+        if !all_fit {
+            return false;
+        }
+        let mut flagged = false;
+        for (i, &(start, len)) in self.rows.iter().enumerate() {
+            let row = Row {
+                at: [self.xs[i], self.ys[i], self.zs[i]],
+                lo2: &self.lo2[start..start + len],
+                hi2: &self.hi2[start..start + len],
+                xs: &self.xs[i + 1..i + 1 + len],
+                ys: &self.ys[i + 1..i + 1 + len],
+                zs: &self.zs[i + 1..i + 1 + len],
+            };
+            flagged |= row.flagged();
+        }
+        !flagged
+    }
+}
+
+/// One row of the pair table: atom i at `at` against the atoms after it,
+/// all slices of the same length, a multiple of [`LANES`].
+struct Row<'a> {
+    at: [f32; 3],
+    lo2: &'a [f32],
+    hi2: &'a [f32],
+    xs: &'a [f32],
+    ys: &'a [f32],
+    zs: &'a [f32],
+}
+
+impl Row<'_> {
+    /// True when some pair of the row is flagged.
+    #[inline(always)]
+    fn flagged(&self) -> bool {
+        #[cfg(target_arch = "x86_64")]
+        {
+            self.flagged_sse()
+        }
+        #[cfg(not(target_arch = "x86_64"))]
+        {
+            self.flagged_scalar()
+        }
+    }
+
+    /// [`Row::flagged`] one pair at a time: the portable definition.
+    #[cfg_attr(target_arch = "x86_64", allow(dead_code))]
+    fn flagged_scalar(&self) -> bool {
+        let [xi, yi, zi] = self.at;
+        (0..self.lo2.len()).any(|j| {
+            let (dx, dy, dz) = (self.xs[j] - xi, self.ys[j] - yi, self.zs[j] - zi);
+            let d2 = dx * dx + dy * dy + dz * dz;
+            d2 < self.lo2[j] || d2 > self.hi2[j]
+        })
+    }
+
+    /// [`Row::flagged`] four pairs at a time in SSE registers, with the same
+    /// operations in the same order as [`Row::flagged_scalar`], so the same
+    /// flags.
+    #[cfg(target_arch = "x86_64")]
+    #[inline(always)]
+    fn flagged_sse(&self) -> bool {
+        use std::arch::x86_64::{
+            _mm_add_ps, _mm_cmpgt_ps, _mm_cmplt_ps, _mm_loadu_ps, _mm_movemask_ps, _mm_mul_ps,
+            _mm_or_ps, _mm_set1_ps, _mm_setzero_ps, _mm_sub_ps,
+        };
+        let n = self.lo2.len();
+        assert!(
+            n % LANES == 0
+                && self.hi2.len() == n
+                && self.xs.len() == n
+                && self.ys.len() == n
+                && self.zs.len() == n
+        );
+        // SAFETY: SSE is part of the x86_64 baseline; every load reads four
+        // f32 at j < n, j + 4 <= n, inside slices of length n (asserted).
+        unsafe {
+            let (xi, yi, zi) = (
+                _mm_set1_ps(self.at[0]),
+                _mm_set1_ps(self.at[1]),
+                _mm_set1_ps(self.at[2]),
+            );
+            let mut any = _mm_setzero_ps();
+            for j in (0..n).step_by(LANES) {
+                let dx = _mm_sub_ps(_mm_loadu_ps(self.xs.as_ptr().add(j)), xi);
+                let dy = _mm_sub_ps(_mm_loadu_ps(self.ys.as_ptr().add(j)), yi);
+                let dz = _mm_sub_ps(_mm_loadu_ps(self.zs.as_ptr().add(j)), zi);
+                let d2 = _mm_add_ps(
+                    _mm_add_ps(_mm_mul_ps(dx, dx), _mm_mul_ps(dy, dy)),
+                    _mm_mul_ps(dz, dz),
+                );
+                let lo = _mm_cmplt_ps(d2, _mm_loadu_ps(self.lo2.as_ptr().add(j)));
+                let hi = _mm_cmpgt_ps(d2, _mm_loadu_ps(self.hi2.as_ptr().add(j)));
+                any = _mm_or_ps(any, _mm_or_ps(lo, hi));
+            }
+            _mm_movemask_ps(any) != 0
+        }
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn v(x: f64, y: f64, z: f64) -> Vec3 {
+        Vec3::new(x, y, z)
+    }
+
+    /// Three atoms in a row, 1–2 bonded (cutoff 1.6 Å), alarm 1.2 Å for 1–3
+    /// and 2–3, 0.1 Å for the bond.
+    fn screen() -> PairScreen {
+        PairScreen::new(
+            3,
+            |i, j| if (i, j) == (0, 1) { 0.1 } else { 1.2 },
+            |i, j| ((i, j) == (0, 1)).then_some(1.6),
+        )
+    }
+
+    #[test]
+    fn flags_close_pairs_long_bonds_and_bad_coordinates() {
+        let mut s = screen();
+        assert!(s.clear(&[v(0.0, 0.0, 0.0), v(1.5, 0.0, 0.0), v(3.0, 0.0, 0.0)]));
+        // A bond just inside its cutoff but within the margin: flagged.
+        assert!(!s.clear(&[v(0.0, 0.0, 0.0), v(1.59, 0.0, 0.0), v(3.0, 0.0, 0.0)]));
+        // A non-bonded pair at its alarm distance: flagged.
+        assert!(!s.clear(&[v(0.0, 0.0, 0.0), v(1.5, 0.0, 0.0), v(2.7, 0.0, 0.0)]));
+        assert!(!s.clear(&[v(0.0, 0.0, 0.0), v(1.5, 0.0, 0.0), v(f64::NAN, 0.0, 0.0)]));
+        assert!(!s.clear(&[
+            v(0.0, 0.0, 0.0),
+            v(1.5, 0.0, 0.0),
+            v(0.0, f64::INFINITY, 0.0)
+        ]));
+        let far = MAX_COORD_A * 2.0;
+        assert!(!s.clear(&[
+            v(far, 0.0, 0.0),
+            v(far + 1.5, 0.0, 0.0),
+            v(far + 3.0, 0.0, 0.0)
+        ]));
+        assert!(!s.clear(&[v(0.0, 0.0, 0.0), v(1.5, 0.0, 0.0)]));
+    }
+
+    #[cfg(target_arch = "x86_64")]
+    proptest::proptest! {
+        /// The SSE row test gives the same flag as the scalar one.
+        #[test]
+        fn sse_rows_flag_as_scalar_rows(
+            at in proptest::array::uniform3(-5.0..5.0f32),
+            pairs in proptest::collection::vec(
+                (proptest::array::uniform3(-5.0..5.0f32), 0.0..9.0f32, 1.0..40.0f32),
+                1..5,
+            ),
+        ) {
+            let mut cols: [Vec<f32>; 5] = Default::default();
+            for (p, lo, hi) in pairs.iter().cycle().take(4 * pairs.len()) {
+                cols[0].push(p[0]);
+                cols[1].push(p[1]);
+                cols[2].push(p[2]);
+                cols[3].push(*lo);
+                cols[4].push(*hi);
+            }
+            let row = Row { at, xs: &cols[0], ys: &cols[1], zs: &cols[2], lo2: &cols[3], hi2: &cols[4] };
+            proptest::prop_assert_eq!(row.flagged_sse(), row.flagged_scalar());
+        }
+    }
+
+    proptest::proptest! {
+        /// Conservative: whatever the exact double-precision distances say is
+        /// too close or too long is flagged, at any offset up to the largest
+        /// accepted coordinate.
+        #[test]
+        fn never_passes_what_the_exact_test_rejects(
+            offset in -9000.0..9000.0f64,
+            pts in proptest::collection::vec((-3.0..3.0f64, -3.0..3.0f64, -3.0..3.0f64), 6),
+        ) {
+            let n = pts.len();
+            let alarm = |i: usize, j: usize| 0.8 + 0.1 * ((i + j) % 4) as f64;
+            let cutoff = |i: usize, j: usize| (j == i + 1).then_some(2.5);
+            let mut s = PairScreen::new(n, alarm, cutoff);
+            let c: Vec<Vec3> = pts.iter().map(|p| v(p.0 + offset, p.1, p.2 - offset)).collect();
+            let mut exact_ok = true;
+            for i in 0..n {
+                for j in i + 1..n {
+                    let d = (c[j] - c[i]).norm();
+                    exact_ok &= d >= alarm(i, j) && cutoff(i, j).is_none_or(|cut| d <= cut);
+                }
+            }
+            if s.clear(&c) {
+                proptest::prop_assert!(exact_ok);
+            }
+        }
+    }
+}
