@@ -51,7 +51,7 @@ use crate::fragments::{self, FragmentKind};
 use crate::geometry::{dihedral_xy, Vec3};
 use crate::io::dcd::DcdReader;
 use crate::io::{self, BondOrder, Format, Frame, FrameReader, ReadOptions};
-use crate::karplus::{self, ModelChoice, NotEvaluated, ParamLibrary, PreparedPair};
+use crate::karplus::{self, ModelChoice, NotEvaluated, PairBatch, ParamLibrary, PreparedPair};
 use crate::pucker::{Pucker, Shape};
 use crate::states::{Rotamer, StateTracker};
 use crate::timeseries::{BlockAverager, BlockingAnalysis, HalvesCheck, Plateau};
@@ -718,6 +718,8 @@ fn frame_error(frame: &Frame, index: usize, e: Error) -> Error {
 struct Analysis<'t> {
     top: &'t Topology,
     pairs: Vec<PreparedPair>,
+    /// The pairs made ready for evaluation frame after frame.
+    batch: PairBatch,
     groups: Vec<Group>,
     j_pair: Vec<f64>,
     j_group: Vec<f64>,
@@ -876,6 +878,7 @@ impl<'t> Analysis<'t> {
 
         Ok(Analysis {
             top,
+            batch: PairBatch::new(&pairs),
             j_pair: vec![0.0; pairs.len()],
             j_group: vec![0.0; n],
             averagers: (0..n).map(|_| BlockAverager::new()).collect(),
@@ -895,9 +898,9 @@ impl<'t> Analysis<'t> {
     #[inline]
     fn add(&mut self, frame: &Frame, index: usize, used: u64) -> Result<()> {
         let c = &frame.coords;
-        for (j, p) in self.j_pair.iter_mut().zip(&self.pairs) {
-            *j = p.evaluate_j(c).map_err(|e| frame_error(frame, index, e))?;
-        }
+        self.batch
+            .evaluate(&self.pairs, c, &mut self.j_pair)
+            .map_err(|e| frame_error(frame, index, e))?;
         for ((g, jg), avg) in self
             .groups
             .iter()

@@ -10,8 +10,8 @@ use vicinal::fragments::{FragmentKind, Substituent, VicinalPair};
 use vicinal::geometry::{dihedral, Vec3};
 use vicinal::io::{Bond, BondOrder};
 use vicinal::karplus::{
-    equations, hla, is_pro_r, prepare_all, xi_sign, Form, HlaTerm, ModelChoice, ParamLibrary,
-    PreparedPair,
+    equations, hla, is_pro_r, prepare_all, xi_sign, Form, HlaTerm, ModelChoice, PairBatch,
+    ParamLibrary, PreparedPair,
 };
 use vicinal::topology::{Atom, BondSource, Hybridization, Topology};
 
@@ -777,6 +777,42 @@ proptest! {
             let a = equations::single_angle(&s.form, deg.to_radians(), &terms);
             let b = equations::single_angle(&s.form, (deg + 360.0).to_radians(), &terms);
             prop_assert!((a - b).abs() < 1e-9, "{} at {}", s.id, deg);
+        }
+    }
+
+    // The trajectory's batch evaluator gives the bits of the pair-by-pair
+    // evaluation, and the same error when an atom sits on its neighbour.
+    #[test]
+    fn batch_matches_pair_by_pair(omega in -180.0f64..180.0, axial in proptest::bool::ANY, broken in 0usize..6) {
+        let g = pyranoside(axial, omega);
+        let top = g.mol.topology();
+        let mut pairs = vec![];
+        for k in 1..5 {
+            pairs.push(pair(&top, g.h[k], g.ring[k], g.ring[k + 1], g.h[k + 1], FragmentKind::HCsp3Csp3H));
+        }
+        for &h6 in &g.h6 {
+            pairs.push(pair(&top, g.h[5], g.ring[5], g.c6, h6, FragmentKind::HCsp3Csp3H));
+        }
+        let set = prepare_all(&pairs, &top, &ParamLibrary::builtin(), &ModelChoice::default()).unwrap();
+        let batch = PairBatch::new(&set.pairs);
+        let mut out = vec![0.0; set.pairs.len()];
+        batch.evaluate(&set.pairs, &g.mol.xyz, &mut out).unwrap();
+        for (pp, j) in set.pairs.iter().zip(&out) {
+            prop_assert_eq!(pp.evaluate_j(&g.mol.xyz).unwrap().to_bits(), j.to_bits());
+        }
+        // A proton moved onto its carbon: the first failing pair's error.
+        let mut bad = g.mol.xyz.clone();
+        if broken < 5 {
+            bad[g.h[broken + 1]] = bad[g.ring[broken + 1]];
+        }
+        let want = set.pairs.iter().map(|pp| pp.evaluate_j(&bad)).collect::<Result<Vec<_>, _>>();
+        let got = batch.evaluate(&set.pairs, &bad, &mut out);
+        match want {
+            Ok(js) => {
+                prop_assert!(got.is_ok());
+                prop_assert_eq!(js.iter().map(|j| j.to_bits()).collect::<Vec<_>>(), out.iter().map(|j| j.to_bits()).collect::<Vec<_>>());
+            }
+            Err(e) => prop_assert_eq!(e.to_string(), got.unwrap_err().to_string()),
         }
     }
 

@@ -26,6 +26,7 @@
 //! error of roughly half a hertz on its own training set, more on molecules
 //! unlike it) to be confirmed by independent evidence.
 
+mod batch;
 pub mod curve;
 pub mod equations;
 pub mod params;
@@ -38,6 +39,7 @@ use crate::fragments::{FragmentKind, VicinalPair};
 use crate::geometry::{dihedral, DihedralParts, Vec3};
 use crate::topology::{Hybridization, Topology};
 
+pub use batch::PairBatch;
 pub use curve::{curve, curve_svg, write_curve_csv, PatternSubstituent};
 pub use equations::{hla, is_pro_r, xi_sign, HlaTerm};
 pub use params::{Form, HlaCoefficients, ParamLibrary, ParamSet};
@@ -251,6 +253,42 @@ enum Kernel {
         form: Form,
         hm: Hydroxymethyl,
     },
+}
+
+/// The Haasnoot–de Leeuw–Altona sum (Tetrahedron 1980, 36, 2783) in Hz for
+/// the dihedral `parts` of H1–X–Y–H2 (X at `x`, Y at `y`), the same sum as
+/// [`equations::hla_sin_cos`] accumulated in place; `None` when a
+/// substituent lies outside `coords`. Shared by [`PreparedPair::evaluate`]
+/// and [`PairBatch`], so both give the same bits.
+#[inline(always)]
+fn hla_sum(
+    p: &HlaCoefficients,
+    subs: &[PreparedSub],
+    coords: &[Vec3],
+    x: &Vec3,
+    y: &Vec3,
+    parts: &DihedralParts,
+) -> Option<f64> {
+    let (c, sin_phi) = (parts.x / parts.r, parts.y / parts.r);
+    let mut j = p.p1 * c * c + p.p2 * c + p.p3;
+    // The normals of the dihedral's planes serve the substituents of each
+    // carbon: n1 = (X − H1) × (Y − X) = (Y − X) × (H1 − X) on X, and
+    // −n2 = (X − Y) × (H2 − Y) on Y.
+    for s in subs {
+        let sp = coords.get(s.atom)?;
+        // ξ = sign[((Ha − Ca) × (S − Ca)) · (Cb − Ca)]
+        //   = sign[(S − Ca) · ((Cb − Ca) × (Ha − Ca))], a triple product
+        // rotated so the cross product is shared.
+        let t = if s.on_x {
+            (sp - x).dot(&parts.n1)
+        } else {
+            -(sp - y).dot(&parts.n2)
+        };
+        let xi = if t < 0.0 { -1.0 } else { 1.0 };
+        let u = c * s.cos_a - xi * sin_phi * s.sin_a;
+        j += s.dchi * (p.p4 + p.p5 * u * u);
+    }
+    Some(j)
 }
 
 /// One vicinal pair made ready for fast evaluation over an ensemble: atom
@@ -580,31 +618,8 @@ impl PreparedPair {
         let (dy, dx, r) = (parts.y, parts.x, parts.r);
         let (cos_phi, sin_phi) = (dx / r, dy / r);
         let j = match &self.kernel {
-            Kernel::Hla { p, subs, n } => {
-                // The same sum as equations::hla_sin_cos, accumulated in place.
-                let c = cos_phi;
-                let mut j = p.p1 * c * c + p.p2 * c + p.p3;
-                // The normals of the dihedral's planes serve the substituents
-                // of each carbon: n1 = (X − H1) × (Y − X) = (Y − X) × (H1 − X)
-                // on X, and −n2 = (X − Y) × (H2 − Y) on Y.
-                for s in subs.iter().take(*n) {
-                    let sp = coords.get(s.atom).ok_or_else(|| {
-                        self.fail("coordinates do not cover every atom of the fragment")
-                    })?;
-                    // ξ = sign[((Ha − Ca) × (S − Ca)) · (Cb − Ca)]
-                    //   = sign[(S − Ca) · ((Cb − Ca) × (Ha − Ca))], a triple
-                    // product rotated so the cross product is shared.
-                    let t = if s.on_x {
-                        (sp - x).dot(&parts.n1)
-                    } else {
-                        -(sp - y).dot(&parts.n2)
-                    };
-                    let xi = if t < 0.0 { -1.0 } else { 1.0 };
-                    let u = c * s.cos_a - xi * sin_phi * s.sin_a;
-                    j += s.dchi * (p.p4 + p.p5 * u * u);
-                }
-                j
-            }
+            Kernel::Hla { p, subs, n } => hla_sum(p, &subs[..*n], coords, x, y, &parts)
+                .ok_or_else(|| self.fail("coordinates do not cover every atom of the fragment"))?,
             Kernel::Single(f) => equations::single_sin_cos(f, cos_phi, sin_phi),
             Kernel::Omega { form, hm } => {
                 let c5 = &coords[hm.c5];
