@@ -239,7 +239,6 @@ fn plain_decimal_ending<const NEWLINE_ENDS: bool>(
 /// fast path's value, so exactly what `str::parse::<f64>` gives.
 #[inline(always)]
 pub(crate) fn masked_decimal(buf: &[u8], classes: &Classes, s: u32, e: u32) -> Option<f64> {
-    const ZEROS: u64 = 0x3030_3030_3030_3030;
     let field = (u64::MAX >> (63 - e)) & (u64::MAX << s);
     let neg = (classes.minus >> s) & 1 == 1;
     let body = field & !(classes.minus & (1u64 << s));
@@ -256,15 +255,37 @@ pub(crate) fn masked_decimal(buf: &[u8], classes: &Classes, s: u32, e: u32) -> O
         (p, e - p)
     };
     let k_int = int_end - first;
-    if k_int + k_frac == 0 || k_int > 8 || k_frac > 8 {
+    if k_int + k_frac == 0 {
         return None;
     }
-    // The integer digits end at `int_end`: load the word that ends there (or
-    // the window's first word), move the last digit to the top byte, and make
+    decimal_digits_value(buf, int_end, k_int, k_frac, neg)
+}
+
+/// The value of a decimal already validated by the caller: `k_int` integer
+/// digits just before `buf[point]` (the point itself, or the end of a field
+/// without one), `k_frac` fraction digits just after it, negative if `neg`.
+/// `None` beyond 8 integer or 8 fraction digits, for a significand above
+/// 2^53, or when `buf` ends within 8 bytes of the point. Otherwise the
+/// Clinger fast path, so exactly what `str::parse::<f64>` gives. The digits
+/// are taken as whole words, without a loop over the bytes.
+#[inline(always)]
+pub(crate) fn decimal_digits_value(
+    buf: &[u8],
+    point: u32,
+    k_int: u32,
+    k_frac: u32,
+    neg: bool,
+) -> Option<f64> {
+    const ZEROS: u64 = 0x3030_3030_3030_3030;
+    if k_int > 8 || k_frac > 8 {
+        return None;
+    }
+    // The integer digits end at `point`: load the word that ends there (or
+    // the buffer's first word), move the last digit to the top byte, and make
     // the bytes below the k_int digits '0' (leading zeros).
-    let base = int_end.max(8) - 8;
+    let base = point.max(8) - 8;
     // (With no integer digits the shift may be 64 bits; `keep` is 0 then.)
-    let w = load8(buf, base as usize)?.wrapping_shl(8 * (8 + base - int_end));
+    let w = load8(buf, base as usize)?.wrapping_shl(8 * (8 + base - point));
     let keep = u64::MAX.checked_shl(8 * (8 - k_int)).unwrap_or(0);
     let int = parse_8_digits((w & keep) | (ZEROS & !keep));
     let frac = if k_frac == 0 {
@@ -273,7 +294,7 @@ pub(crate) fn masked_decimal(buf: &[u8], classes: &Classes, s: u32, e: u32) -> O
         // The fraction digits are the low k_frac bytes of the word after the
         // point; subtracting '0' first keeps the borrows out of them, then
         // the shift drops the bytes past the field.
-        let w = load8(buf, int_end as usize + 1)?;
+        let w = load8(buf, point as usize + 1)?;
         let d = w.wrapping_sub(ZEROS) << (8 * (8 - k_frac));
         const MASK: u64 = 0x0000_00FF_0000_00FF;
         const MUL1: u64 = 0x000F_4240_0000_0064;

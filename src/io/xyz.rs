@@ -26,9 +26,10 @@ use std::path::PathBuf;
 
 use super::lines::{show, trim, Lines};
 use super::number::{
-    masked_decimal, number_prefix_len, parse_f64, parse_f64_field, plain_decimal_at,
-    plain_decimal_before_newline,
+    decimal_digits_value, masked_decimal, number_prefix_len, parse_f64, parse_f64_field,
+    plain_decimal_at, plain_decimal_before_newline,
 };
+use super::window::Classes;
 use super::{element_from_bytes, finish_names, Frame, FrameReader, ReadOptions};
 use crate::error::{Error, Result};
 use crate::geometry::Vec3;
@@ -39,7 +40,19 @@ pub struct XyzReader {
     path: PathBuf,
     key: Option<Vec<u8>>,
     frames: usize,
+    /// The layout of the last atom line read by [`masked_atom_line`].
+    layout: Option<Layout>,
+    /// Whether layouts are learned and tried: off for files whose lines
+    /// change columns (free format), where the attempts would only cost.
+    layout_on: bool,
+    /// Atom lines of this frame that the layout did not read.
+    layout_misses: u32,
+    /// Frames read with layouts off.
+    layout_off_frames: u32,
 }
+
+/// With layouts off, they are tried again on one frame in this many.
+const LAYOUT_PROBE_FRAMES: u32 = 256;
 
 impl XyzReader {
     /// A reader over `input`, naming `path` in errors.
@@ -49,6 +62,10 @@ impl XyzReader {
             path,
             key: opts.energy_key.map(|k| k.trim().as_bytes().to_vec()),
             frames: 0,
+            layout: None,
+            layout_on: true,
+            layout_misses: 0,
+            layout_off_frames: 0,
         }
     }
 }
@@ -97,6 +114,26 @@ fn next_field<'a>(line: &'a [u8], i: &mut usize) -> &'a [u8] {
     }
     *i = j;
     &line[start..j]
+}
+
+impl XyzReader {
+    /// At the end of a frame of `atoms` atoms: layouts stay on while they
+    /// read most atom lines, and are probed again now and then once off.
+    fn review_layout(&mut self, atoms: usize) {
+        if self.layout_on {
+            if 2 * self.layout_misses as usize > atoms {
+                self.layout_on = false;
+                self.layout = None;
+                self.layout_off_frames = 0;
+            }
+        } else {
+            self.layout_off_frames += 1;
+            if self.layout_off_frames >= LAYOUT_PROBE_FRAMES {
+                self.layout_on = true;
+            }
+        }
+        self.layout_misses = 0;
+    }
 }
 
 impl FrameReader for XyzReader {
@@ -173,7 +210,22 @@ impl FrameReader for XyzReader {
         frame.coords.reserve(n);
         for k in 0..n {
             let rest = self.lines.rest();
-            if let Some((el, xyz, len)) = masked_atom_line(rest).or_else(|| plain_atom_line(rest)) {
+            let atom = rest
+                .get(..64)
+                .and_then(|w| <&[u8; 64]>::try_from(w).ok())
+                .and_then(|window| {
+                    let c = super::window::classify(window);
+                    if let Some(a) = self.layout.as_ref().and_then(|l| l.read(rest, &c)) {
+                        return Some(a);
+                    }
+                    self.layout_misses += 1;
+                    let a = masked_atom_line(rest, &c)?;
+                    if self.layout_on {
+                        self.layout = Layout::learn(&c, a.2 as u32 - 1);
+                    }
+                    Some(a)
+                });
+            if let Some((el, xyz, len)) = atom.or_else(|| plain_atom_line(rest)) {
                 self.lines.consume(len);
                 frame.elements.push(el);
                 frame.coords.push(xyz);
@@ -229,52 +281,168 @@ impl FrameReader for XyzReader {
         frame.charges.resize(n, 0);
         finish_names(&mut frame.names, 0, n);
         self.frames += 1;
+        self.review_layout(n);
         Ok(true)
     }
 }
 
-/// The common atom line found with byte-class masks
-/// ([`super::window::classify`]) when the line and its `\n` lie within the
-/// first 64 bytes of `buf`: exactly four space-separated fields (blanks other
-/// than the space are left to [`plain_atom_line`]), an element symbol or
-/// number of one or two bytes and three [`masked_decimal`]s. Returns the
-/// element, the coordinates in Å and the line's length with its `\n`; `None`
-/// for anything else.
+/// The column layout of a fixed-format atom line, learned from one line and
+/// checked whole on the next with a few mask compares: writers of
+/// trajectories print every line with the same widths, so the element, the
+/// decimal points and the ends of the fractions stay in the same columns
+/// (only the integer digits and signs before each point vary).
+#[derive(Debug, Clone, Copy)]
+struct Layout {
+    /// Position of the line's `\n`.
+    len: u32,
+    /// First and last byte of the element field.
+    elem: (u32, u32),
+    /// Positions of the three points, and the last fraction digit of each.
+    point: [u32; 3],
+    end: [u32; 3],
+    /// Bits of the points; of the fraction digits; of the bytes that must be
+    /// spaces (after the element and after the first two numbers).
+    points: u64,
+    fraction: u64,
+    gaps: u64,
+}
+
+impl Layout {
+    /// The layout of an atom line that [`masked_atom_line`] read, from its
+    /// byte classes `c` and the position `len` of its `\n`; `None` unless
+    /// every number has a point and 1 to 8 fraction digits.
+    fn learn(c: &Classes, len: u32) -> Option<Layout> {
+        let mut fields = Fields::new(((1u64 << len) - 1) & !c.space);
+        let elem = fields.next()?;
+        let mut l = Layout {
+            len,
+            elem,
+            point: [0; 3],
+            end: [0; 3],
+            points: 0,
+            fraction: 0,
+            gaps: 1u64 << (elem.1 + 1),
+        };
+        for k in 0..3 {
+            let (s, e) = fields.next()?;
+            let dot = c.dot & (u64::MAX >> (63 - e)) & (u64::MAX << s);
+            let p = dot.trailing_zeros();
+            if dot == 0 || e == p || e - p > 8 {
+                return None;
+            }
+            l.point[k] = p;
+            l.end[k] = e;
+            l.points |= dot;
+            l.fraction |= (u64::MAX >> (63 - e)) & (u64::MAX << (p + 1));
+            if k < 2 {
+                l.gaps |= 1u64 << (e + 1);
+            }
+        }
+        Some(l)
+    }
+
+    /// The atom line at the start of `buf` if it has this layout: exactly
+    /// the bytes [`masked_atom_line`] would accept there, with the same
+    /// element and values. `None` for any other line.
+    #[inline(always)]
+    /// `c` holds the byte classes of `buf[..64]`.
+    fn read(&self, buf: &[u8], c: &Classes) -> Option<(super::Element, Vec3, usize)> {
+        let len = self.len;
+        let line = (1u64 << len) - 1;
+        if (c.newline & (line | (1u64 << len))) != 1u64 << len
+            || c.dot & line != self.points
+            || c.digit & self.fraction != self.fraction
+            || c.space & self.gaps != self.gaps
+        {
+            return None;
+        }
+        let (s0, e0) = self.elem;
+        // The bytes that must not be spaces: the element, and each number
+        // from its sign or first integer digit to its last fraction digit.
+        // Every byte of those spans is checked (the element by its lookup,
+        // digits and points by the masks, signs here) and every byte outside
+        // them must be a space, so the line is exactly four fields.
+        let mut solid = (u64::MAX >> (63 - e0)) & (u64::MAX << s0);
+        let mut v = [0.0f64; 3];
+        for (k, slot) in v.iter_mut().enumerate() {
+            let p = self.point[k];
+            // The integer digits run down from the point to the highest
+            // non-digit below it (there is one: the space after the element).
+            let below = !c.digit & ((1u64 << p) - 1);
+            let q = 63 - below.leading_zeros();
+            let neg = (c.minus >> q) & 1;
+            solid |= (u64::MAX >> (63 - self.end[k])) & (u64::MAX << (q + 1 - neg as u32));
+            *slot = decimal_digits_value(buf, p, p - 1 - q, self.end[k] - p, neg == 1)?;
+        }
+        if line & !c.space != solid {
+            return None;
+        }
+        let el = element_from_bytes(buf.get(s0 as usize..e0 as usize + 1)?)?;
+        Some((el, Vec3::new(v[0], v[1], v[2]), len as usize + 1))
+    }
+}
+
+/// The common atom line found with the byte-class masks `c` of `buf[..64]`
+/// ([`super::window::classify`]) when the line and its `\n` lie within
+/// those 64 bytes: exactly four space-separated fields (blanks other than the
+/// space are left to [`plain_atom_line`]), an element symbol or number of one
+/// or two bytes and three [`masked_decimal`]s. Returns the element, the
+/// coordinates in Å and the line's length with its `\n`; `None` for anything
+/// else.
 #[inline(always)]
-fn masked_atom_line(buf: &[u8]) -> Option<(super::Element, Vec3, usize)> {
-    let window: &[u8; 64] = buf.get(..64)?.try_into().ok()?;
-    let c = super::window::classify(window);
+fn masked_atom_line(buf: &[u8], c: &Classes) -> Option<(super::Element, Vec3, usize)> {
     if c.newline == 0 {
         return None;
     }
     let len = c.newline.trailing_zeros();
-    let solid = ((1u64 << len) - 1) & !c.space;
-    let mut starts = solid & !(solid << 1);
-    let mut ends = solid & !(solid >> 1);
-    let mut field = || -> Option<(u32, u32)> {
-        if starts == 0 {
-            return None;
-        }
-        let f = (starts.trailing_zeros(), ends.trailing_zeros());
-        starts &= starts - 1;
-        ends &= ends - 1;
-        Some(f)
-    };
-    let (s0, e0) = field()?;
+    let mut fields = Fields::new(((1u64 << len) - 1) & !c.space);
+    let (s0, e0) = fields.next()?;
     if e0 - s0 > 1 {
         return None;
     }
     let el = element_from_bytes(buf.get(s0 as usize..e0 as usize + 1)?)?;
-    let (s, e) = field()?;
-    let x = masked_decimal(buf, &c, s, e)?;
-    let (s, e) = field()?;
-    let y = masked_decimal(buf, &c, s, e)?;
-    let (s, e) = field()?;
-    let z = masked_decimal(buf, &c, s, e)?;
-    if field().is_some() {
+    let (s, e) = fields.next()?;
+    let x = masked_decimal(buf, c, s, e)?;
+    let (s, e) = fields.next()?;
+    let y = masked_decimal(buf, c, s, e)?;
+    let (s, e) = fields.next()?;
+    let z = masked_decimal(buf, c, s, e)?;
+    if fields.next().is_some() {
         return None;
     }
     Some((el, Vec3::new(x, y, z), len as usize + 1))
+}
+
+/// The fields (runs of set bits) of a mask of non-blank bytes, in order, as
+/// the positions of their first and last bytes.
+struct Fields {
+    starts: u64,
+    ends: u64,
+}
+
+impl Fields {
+    #[inline(always)]
+    fn new(solid: u64) -> Fields {
+        Fields {
+            starts: solid & !(solid << 1),
+            ends: solid & !(solid >> 1),
+        }
+    }
+}
+
+impl Iterator for Fields {
+    type Item = (u32, u32);
+
+    #[inline(always)]
+    fn next(&mut self) -> Option<(u32, u32)> {
+        if self.starts == 0 {
+            return None;
+        }
+        let f = (self.starts.trailing_zeros(), self.ends.trailing_zeros());
+        self.starts &= self.starts - 1;
+        self.ends &= self.ends - 1;
+        Some(f)
+    }
 }
 
 /// The common atom line, read in place from the buffered input `buf` in one
@@ -561,11 +729,62 @@ mod tests {
         Some((el, v))
     }
 
-    fn masked(line: &str) -> Option<(Element, [u64; 3], usize)> {
-        // The buffer runs on past the line, as in the reader.
-        let buf = format!("{line}\nC 1.0 2.0 3.0\n{}", " ".repeat(64));
-        masked_atom_line(buf.as_bytes())
-            .map(|(el, c, len)| (el, [c.x.to_bits(), c.y.to_bits(), c.z.to_bits()], len))
+    type Bits = Option<(Element, [u64; 3], usize)>;
+
+    fn bits(a: Option<(Element, Vec3, usize)>) -> Bits {
+        a.map(|(el, c, len)| (el, [c.x.to_bits(), c.y.to_bits(), c.z.to_bits()], len))
+    }
+
+    /// The line followed by more input, as in the reader's buffer.
+    fn buffered(line: &str) -> Vec<u8> {
+        format!("{line}\nC 1.0 2.0 3.0\n{}", " ".repeat(64)).into_bytes()
+    }
+
+    fn classes(buf: &[u8]) -> Classes {
+        crate::io::window::classify(buf[..64].try_into().unwrap())
+    }
+
+    fn masked(line: &str) -> Bits {
+        let buf = buffered(line);
+        bits(masked_atom_line(&buf, &classes(&buf)))
+    }
+
+    /// The layout learned from `first`, applied to `second`.
+    fn by_layout(first: &str, second: &str) -> Bits {
+        let a = buffered(first);
+        let (_, _, len) = masked_atom_line(&a, &classes(&a))?;
+        let layout = Layout::learn(&classes(&a), len as u32 - 1)?;
+        let b = buffered(second);
+        bits(layout.read(&b, &classes(&b)))
+    }
+
+    #[test]
+    fn layout_reads_lines_of_the_same_columns_only() {
+        let first = "C     2.665123     0.572493    -0.778180";
+        let row = |el: &str, x: &str, y: &str, z: &str| format!("{el}{x:>13}{y:>13}{z:>13}");
+        for second in [
+            row("H", "-2.019797", "11.444917", "-1.003094"),
+            row("O", "-12.000000", "0.000000", "0.000001"),
+            row("6", ".500000", "-.500000", "-0.000000"),
+            row("C", "12.665123", "0.572493", "-0.778180"),
+            row("C", "12345.000000", "-1234.000000", "0.000000"),
+        ] {
+            assert_eq!(by_layout(first, &second), masked(&second), "{second}");
+            assert!(by_layout(first, &second).is_some(), "{second}");
+        }
+        for second in [
+            "C     2.66512     0.572493    -0.778180",
+            "C     2.665123     0.572493    -0.77818 ",
+            "C     2.665123  5  0.572493    -0.778180",
+            "C     2.665123    10.572493-1  -0.778180",
+            "C     2.665123   --0.572493    -0.778180",
+            "C     2.665123     0.572493    -0.778180 ",
+            "C     2.665123\t    0.572493    -0.778180",
+            "Cl    2.665123     0.572493    -0.778180",
+            "  C   2.665123     0.572493    -0.778180",
+        ] {
+            assert_eq!(by_layout(first, second), None, "{second}");
+        }
     }
 
     #[test]
@@ -627,6 +846,13 @@ mod tests {
                 }
             }
             line.push_str(&tail);
+            // The layout of a fixed-format line reads this line as the
+            // definition does, or not at all.
+            let fixed = "C     2.665123     0.572493    -0.778180";
+            if let Some((el, v, len)) = by_layout(fixed, &line) {
+                proptest::prop_assert_eq!(Some((el, v)), by_definition(&line), "{}", line);
+                proptest::prop_assert_eq!(len, line.len() + 1);
+            }
             if let Some((el, v, len)) = masked(&line) {
                 proptest::prop_assert_eq!(Some((el, v)), by_definition(&line), "{}", line);
                 proptest::prop_assert_eq!(len, line.len() + 1);
