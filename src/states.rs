@@ -24,7 +24,7 @@ use std::collections::HashMap;
 
 use crate::error::{Error, Result};
 use crate::geometry::wrap_angle;
-use crate::timeseries::RunningStats;
+use crate::timeseries::RunningMean;
 
 /// Staggered rotamer of a dihedral angle, by the conventional three 120°
 /// windows centred on +60°, 180° and −60° (common practice).
@@ -161,8 +161,8 @@ pub struct StateStats {
     pub complete_run_frames: u64,
     /// Longest run in frames.
     pub longest_run: u64,
-    /// Running statistics of each tracked value over the state's frames.
-    pub values: Vec<RunningStats>,
+    /// Running mean of each tracked value over the state's frames.
+    pub values: Vec<RunningMean>,
 }
 
 impl StateStats {
@@ -284,7 +284,7 @@ impl StateTracker {
             complete_runs: 0,
             complete_run_frames: 0,
             longest_run: 0,
-            values: vec![RunningStats::new(); self.n_values],
+            values: vec![RunningMean::new(); self.n_values],
         });
         self.index.insert(label, i);
         i
