@@ -26,8 +26,8 @@ use std::path::PathBuf;
 
 use super::lines::{show, trim, Lines};
 use super::number::{
-    decimal_digits_value, masked_decimal, number_prefix_len, parse_f64, parse_f64_field,
-    plain_decimal_at, plain_decimal_before_newline,
+    masked_decimal, number_prefix_len, parse_f64, parse_f64_field, plain_decimal_at,
+    plain_decimal_before_newline, FixedDecimal,
 };
 use super::window::Classes;
 use super::{element_from_bytes, finish_names, Frame, FrameReader, ReadOptions};
@@ -305,6 +305,8 @@ struct Layout {
     points: u64,
     fraction: u64,
     gaps: u64,
+    /// Each number's columns, ready for its value.
+    number: [FixedDecimal; 3],
 }
 
 impl Layout {
@@ -314,15 +316,8 @@ impl Layout {
     fn learn(c: &Classes, len: u32) -> Option<Layout> {
         let mut fields = Fields::new(((1u64 << len) - 1) & !c.space);
         let elem = fields.next()?;
-        let mut l = Layout {
-            len,
-            elem,
-            point: [0; 3],
-            end: [0; 3],
-            points: 0,
-            fraction: 0,
-            gaps: 1u64 << (elem.1 + 1),
-        };
+        let (mut point, mut end) = ([0u32; 3], [0u32; 3]);
+        let (mut points, mut fraction, mut gaps) = (0u64, 0u64, 1u64 << (elem.1 + 1));
         for k in 0..3 {
             let (s, e) = fields.next()?;
             let dot = c.dot & (u64::MAX >> (63 - e)) & (u64::MAX << s);
@@ -330,15 +325,28 @@ impl Layout {
             if dot == 0 || e == p || e - p > 8 {
                 return None;
             }
-            l.point[k] = p;
-            l.end[k] = e;
-            l.points |= dot;
-            l.fraction |= (u64::MAX >> (63 - e)) & (u64::MAX << (p + 1));
+            (point[k], end[k]) = (p, e);
+            points |= dot;
+            fraction |= (u64::MAX >> (63 - e)) & (u64::MAX << (p + 1));
             if k < 2 {
-                l.gaps |= 1u64 << (e + 1);
+                gaps |= 1u64 << (e + 1);
             }
         }
-        Some(l)
+        let number = [
+            FixedDecimal::new(point[0], end[0])?,
+            FixedDecimal::new(point[1], end[1])?,
+            FixedDecimal::new(point[2], end[2])?,
+        ];
+        Some(Layout {
+            len,
+            elem,
+            point,
+            end,
+            points,
+            fraction,
+            gaps,
+            number,
+        })
     }
 
     /// The atom line at the start of `buf` if it has this layout: exactly
@@ -347,6 +355,7 @@ impl Layout {
     #[inline(always)]
     /// `c` holds the byte classes of `buf[..64]`.
     fn read(&self, buf: &[u8], c: &Classes) -> Option<(super::Element, Vec3, usize)> {
+        let window: &[u8; 64] = buf.get(..64)?.try_into().ok()?;
         let len = self.len;
         let line = (1u64 << len) - 1;
         if (c.newline & (line | (1u64 << len))) != 1u64 << len
@@ -372,7 +381,7 @@ impl Layout {
             let q = 63 - below.leading_zeros();
             let neg = (c.minus >> q) & 1;
             solid |= (u64::MAX >> (63 - self.end[k])) & (u64::MAX << (q + 1 - neg as u32));
-            *slot = decimal_digits_value(buf, p, p - 1 - q, self.end[k] - p, neg == 1)?;
+            *slot = self.number[k].value(window, p - 1 - q, neg == 1)?;
         }
         if line & !c.space != solid {
             return None;
