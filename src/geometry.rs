@@ -6,7 +6,7 @@ pub type Vec3 = nalgebra::Vector3<f64>;
 
 /// Below this value of sin² of a bond angle, a dihedral is treated as
 /// undefined: three of its atoms are (nearly) collinear (|sin θ| < 1e-4).
-const COLLINEAR_EPS: f64 = 1e-8;
+pub(crate) const COLLINEAR_EPS: f64 = 1e-8;
 
 /// Signed dihedral angle τ(a, b, c, d) in radians, in (−π, π], with the IUPAC
 /// sign convention (IUPAC Gold Book, "torsion angle"; Klyne & Prelog,
