@@ -32,6 +32,21 @@ pub(crate) fn classify(w: &[u8; 64]) -> Classes {
     }
 }
 
+/// The space and digit masks of [`classify`] only, for parsers that look at
+/// the few other bytes they need one by one.
+#[inline(always)]
+pub(crate) fn spaces_and_digits(w: &[u8; 64]) -> (u64, u64) {
+    #[cfg(target_arch = "x86_64")]
+    {
+        sse2::spaces_and_digits(w)
+    }
+    #[cfg(not(target_arch = "x86_64"))]
+    {
+        let c = classify_bytes(w);
+        (c.space, c.digit)
+    }
+}
+
 /// [`classify`] one byte at a time: the portable definition of the masks.
 #[cfg_attr(target_arch = "x86_64", allow(dead_code))]
 #[inline]
@@ -84,6 +99,26 @@ mod sse2 {
         }
         c
     }
+
+    #[inline(always)]
+    pub(super) fn spaces_and_digits(w: &[u8; 64]) -> (u64, u64) {
+        let (mut space, mut digit) = (0u64, 0u64);
+        for k in 0..4 {
+            let shift = 16 * k as u32;
+            // SAFETY: as in `classify`.
+            unsafe {
+                let v = _mm_loadu_si128(w.as_ptr().add(16 * k).cast::<__m128i>());
+                let bits = |m: __m128i| u64::from(_mm_movemask_epi8(m) as u16) << shift;
+                let d = _mm_and_si128(
+                    _mm_cmpgt_epi8(v, _mm_set1_epi8(b'0' as i8 - 1)),
+                    _mm_cmplt_epi8(v, _mm_set1_epi8(b'9' as i8 + 1)),
+                );
+                space |= bits(_mm_cmpeq_epi8(v, _mm_set1_epi8(b' ' as i8)));
+                digit |= bits(d);
+            }
+        }
+        (space, digit)
+    }
 }
 
 #[cfg(test)]
@@ -101,7 +136,13 @@ mod tests {
                     *x = MIX[j % MIX.len()];
                 }
                 w[k] = b;
-                assert_eq!(classify(&w), classify_bytes(&w), "byte {b:#04x} at {k}");
+                let c = classify_bytes(&w);
+                assert_eq!(classify(&w), c, "byte {b:#04x} at {k}");
+                assert_eq!(
+                    spaces_and_digits(&w),
+                    (c.space, c.digit),
+                    "byte {b:#04x} at {k}"
+                );
             }
         }
     }

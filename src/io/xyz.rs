@@ -214,10 +214,10 @@ impl FrameReader for XyzReader {
                 .get(..64)
                 .and_then(|w| <&[u8; 64]>::try_from(w).ok())
                 .and_then(|window| {
-                    let c = super::window::classify(window);
-                    if let Some(a) = self.layout.as_ref().and_then(|l| l.read(rest, &c)) {
+                    if let Some(a) = self.layout.as_ref().and_then(|l| l.read(window)) {
                         return Some(a);
                     }
+                    let c = super::window::classify(window);
                     self.layout_misses += 1;
                     let a = masked_atom_line(rest, &c)?;
                     if self.layout_on {
@@ -300,9 +300,8 @@ struct Layout {
     /// Positions of the three points, and the last fraction digit of each.
     point: [u32; 3],
     end: [u32; 3],
-    /// Bits of the points; of the fraction digits; of the bytes that must be
-    /// spaces (after the element and after the first two numbers).
-    points: u64,
+    /// Bits of the fraction digits, and of the bytes that must be spaces
+    /// (after the element and after the first two numbers).
     fraction: u64,
     gaps: u64,
     /// Each number's columns, ready for its value.
@@ -317,7 +316,7 @@ impl Layout {
         let mut fields = Fields::new(((1u64 << len) - 1) & !c.space);
         let elem = fields.next()?;
         let (mut point, mut end) = ([0u32; 3], [0u32; 3]);
-        let (mut points, mut fraction, mut gaps) = (0u64, 0u64, 1u64 << (elem.1 + 1));
+        let (mut fraction, mut gaps) = (0u64, 1u64 << (elem.1 + 1));
         for k in 0..3 {
             let (s, e) = fields.next()?;
             let dot = c.dot & (u64::MAX >> (63 - e)) & (u64::MAX << s);
@@ -326,7 +325,6 @@ impl Layout {
                 return None;
             }
             (point[k], end[k]) = (p, e);
-            points |= dot;
             fraction |= (u64::MAX >> (63 - e)) & (u64::MAX << (p + 1));
             if k < 2 {
                 gaps |= 1u64 << (e + 1);
@@ -342,7 +340,6 @@ impl Layout {
             elem,
             point,
             end,
-            points,
             fraction,
             gaps,
             number,
@@ -354,14 +351,17 @@ impl Layout {
     /// element and values. `None` for any other line.
     #[inline(always)]
     /// `c` holds the byte classes of `buf[..64]`.
-    fn read(&self, buf: &[u8], c: &Classes) -> Option<(super::Element, Vec3, usize)> {
-        let window: &[u8; 64] = buf.get(..64)?.try_into().ok()?;
+    fn read(&self, window: &[u8; 64]) -> Option<(super::Element, Vec3, usize)> {
+        // Only two classes as masks; the few other bytes are looked at one
+        // by one: the `\n`, the points and the signs.
+        let (space, digit) = super::window::spaces_and_digits(window);
+        let byte = |i: u32| window[(i & 63) as usize];
         let len = self.len;
         let line = (1u64 << len) - 1;
-        if (c.newline & (line | (1u64 << len))) != 1u64 << len
-            || c.dot & line != self.points
-            || c.digit & self.fraction != self.fraction
-            || c.space & self.gaps != self.gaps
+        if byte(len) != b'\n'
+            || digit & self.fraction != self.fraction
+            || space & self.gaps != self.gaps
+            || self.point.iter().any(|&p| byte(p) != b'.')
         {
             return None;
         }
@@ -369,24 +369,25 @@ impl Layout {
         // The bytes that must not be spaces: the element, and each number
         // from its sign or first integer digit to its last fraction digit.
         // Every byte of those spans is checked (the element by its lookup,
-        // digits and points by the masks, signs here) and every byte outside
-        // them must be a space, so the line is exactly four fields.
+        // digits by the mask, points and signs one by one) and every byte
+        // outside them must be a space, so the line is exactly four fields;
+        // a `\n` or a point elsewhere before `len` fails one of the checks.
         let mut solid = (u64::MAX >> (63 - e0)) & (u64::MAX << s0);
         let mut v = [0.0f64; 3];
         for (k, slot) in v.iter_mut().enumerate() {
             let p = self.point[k];
             // The integer digits run down from the point to the highest
             // non-digit below it (there is one: the space after the element).
-            let below = !c.digit & ((1u64 << p) - 1);
+            let below = !digit & ((1u64 << p) - 1);
             let q = 63 - below.leading_zeros();
-            let neg = (c.minus >> q) & 1;
-            solid |= (u64::MAX >> (63 - self.end[k])) & (u64::MAX << (q + 1 - neg as u32));
-            *slot = self.number[k].value(window, p - 1 - q, neg == 1)?;
+            let neg = byte(q) == b'-';
+            solid |= (u64::MAX >> (63 - self.end[k])) & (u64::MAX << (q + 1 - u32::from(neg)));
+            *slot = self.number[k].value(window, p - 1 - q, neg)?;
         }
-        if line & !c.space != solid {
+        if line & !space != solid {
             return None;
         }
-        let el = element_from_bytes(buf.get(s0 as usize..e0 as usize + 1)?)?;
+        let el = element_from_bytes(window.get(s0 as usize..e0 as usize + 1)?)?;
         Some((el, Vec3::new(v[0], v[1], v[2]), len as usize + 1))
     }
 }
@@ -764,7 +765,7 @@ mod tests {
         let (_, _, len) = masked_atom_line(&a, &classes(&a))?;
         let layout = Layout::learn(&classes(&a), len as u32 - 1)?;
         let b = buffered(second);
-        bits(layout.read(&b, &classes(&b)))
+        bits(layout.read(b[..64].try_into().unwrap()))
     }
 
     #[test]
