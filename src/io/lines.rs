@@ -111,13 +111,13 @@ impl Lines {
         self.buf.get(self.pos..self.end).unwrap_or_default()
     }
 
-    /// Counts `len` bytes of [`rest`](Self::rest), which must be one whole
-    /// line with its `\n`, as read (as [`Lines::next_line`] would have).
+    /// Counts `lines` whole lines of [`rest`](Self::rest), `bytes` long in
+    /// all with their `\n`s, the last of them `last` bytes long, as read.
     #[inline(always)]
-    pub(crate) fn consume(&mut self, len: usize) {
-        self.prev = Some((self.pos, self.line_no));
-        self.pos += len;
-        self.line_no += 1;
+    pub(crate) fn consume_run(&mut self, bytes: usize, lines: usize, last: usize) {
+        self.prev = Some((self.pos + bytes - last, self.line_no + lines - 1));
+        self.pos += bytes;
+        self.line_no += lines;
     }
 
     /// Makes the last line returned by [`Lines::next_line`] the next one again.

@@ -208,27 +208,20 @@ impl FrameReader for XyzReader {
 
         frame.elements.reserve(n);
         frame.coords.reserve(n);
-        for k in 0..n {
-            let rest = self.lines.rest();
-            let atom = rest
-                .get(..64)
-                .and_then(|w| <&[u8; 64]>::try_from(w).ok())
-                .and_then(|window| {
-                    if let Some(a) = self.layout.as_ref().and_then(|l| l.read(window)) {
-                        return Some(a);
-                    }
-                    let c = super::window::classify(window);
-                    self.layout_misses += 1;
-                    let a = masked_atom_line(rest, &c)?;
-                    if self.layout_on {
-                        self.layout = Layout::learn(&c, a.2 as u32 - 1);
-                    }
-                    Some(a)
-                });
-            if let Some((el, xyz, len)) = atom.or_else(|| plain_atom_line(rest)) {
-                self.lines.consume(len);
-                frame.elements.push(el);
-                frame.coords.push(xyz);
+        let mut k = 0;
+        while k < n {
+            // As many lines as the in-place paths take, counted at once.
+            let run = fast_run(
+                self.lines.rest(),
+                &mut self.layout,
+                self.layout_on,
+                &mut self.layout_misses,
+                frame,
+                n - k,
+            );
+            if run.lines > 0 {
+                self.lines.consume_run(run.bytes, run.lines, run.last);
+                k += run.lines;
                 continue;
             }
             let (no, line) = match self.lines.next_line()? {
@@ -277,6 +270,7 @@ impl FrameReader for XyzReader {
             }
             frame.elements.push(el);
             frame.coords.push(Vec3::new(xyz[0], xyz[1], xyz[2]));
+            k += 1;
         }
         frame.charges.resize(n, 0);
         finish_names(&mut frame.names, 0, n);
@@ -284,6 +278,61 @@ impl FrameReader for XyzReader {
         self.review_layout(n);
         Ok(true)
     }
+}
+
+/// What [`fast_run`] read: whole lines, their bytes with the `\n`s, and the
+/// length of the last.
+struct Run {
+    lines: usize,
+    bytes: usize,
+    last: usize,
+}
+
+/// Reads up to `max` atom lines from the start of `buf` into `frame` by the
+/// in-place paths (the learned layout, then [`masked_atom_line`], then
+/// [`plain_atom_line`]), stopping at the first line none of them takes,
+/// which the caller reads by the general path.
+#[inline(always)]
+fn fast_run(
+    buf: &[u8],
+    layout: &mut Option<Layout>,
+    layout_on: bool,
+    misses: &mut u32,
+    frame: &mut Frame,
+    max: usize,
+) -> Run {
+    let mut run = Run {
+        lines: 0,
+        bytes: 0,
+        last: 0,
+    };
+    while run.lines < max {
+        let rest = buf.get(run.bytes..).unwrap_or_default();
+        let atom = rest
+            .get(..64)
+            .and_then(|w| <&[u8; 64]>::try_from(w).ok())
+            .and_then(|window| {
+                if let Some(a) = layout.as_ref().and_then(|l| l.read(window)) {
+                    return Some(a);
+                }
+                let c = super::window::classify(window);
+                *misses += 1;
+                let a = masked_atom_line(rest, &c)?;
+                if layout_on {
+                    *layout = Layout::learn(&c, a.2 as u32 - 1);
+                }
+                Some(a)
+            });
+        let Some((el, xyz, len)) = atom.or_else(|| plain_atom_line(rest)) else {
+            break;
+        };
+        frame.elements.push(el);
+        frame.coords.push(xyz);
+        run.lines += 1;
+        run.bytes += len;
+        run.last = len;
+    }
+    run
 }
 
 /// The column layout of a fixed-format atom line, learned from one line and
