@@ -330,28 +330,24 @@ impl BlockAverager {
             self.skipped += 1;
             return;
         }
-        self.min = self.min.min(x);
-        self.max = self.max.max(x);
+        // x is finite here, so plain comparisons give min and max.
+        if x < self.min {
+            self.min = x;
+        }
+        if x > self.max {
+            self.max = x;
+        }
         let shift = *self.shift.get_or_insert(x);
-        let mut v = x - shift;
-        let y = v;
-        let mut k = 0;
-        loop {
-            if k == self.levels.len() {
-                self.levels.push(Level::default());
-            }
-            let level = &mut self.levels[k];
-            level.add(v);
-            match level.pending.take() {
-                None => {
-                    level.pending = Some(v);
-                    break;
-                }
-                Some(p) => {
-                    v = 0.5 * (p + v);
-                    k += 1;
-                }
-            }
+        let y = x - shift;
+        if self.levels.is_empty() {
+            self.levels.push(Level::default());
+        }
+        // Level 0 takes every value; every second one carries a pair mean up.
+        let l0 = &mut self.levels[0];
+        l0.add(y);
+        match l0.pending.take() {
+            None => l0.pending = Some(y),
+            Some(p) => self.carry(0.5 * (p + y)),
         }
         self.partial_sum += y;
         self.partial_n += 1;
@@ -366,6 +362,29 @@ impl BlockAverager {
                 }
                 self.store.truncate(half);
                 self.store_block *= 2;
+            }
+        }
+    }
+
+    /// Adds the pair mean `v` to level 1 and carries on up the levels.
+    #[inline]
+    fn carry(&mut self, mut v: f64) {
+        let mut k = 1;
+        loop {
+            if k == self.levels.len() {
+                self.levels.push(Level::default());
+            }
+            let level = &mut self.levels[k];
+            level.add(v);
+            match level.pending.take() {
+                None => {
+                    level.pending = Some(v);
+                    return;
+                }
+                Some(p) => {
+                    v = 0.5 * (p + v);
+                    k += 1;
+                }
             }
         }
     }
