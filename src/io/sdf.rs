@@ -226,7 +226,7 @@ impl FrameReader for SdfReader {
             }
             return Ok(false);
         }
-        if frame.path != self.path {
+        if frame.path.as_os_str() != self.path.as_os_str() {
             frame.path.clone_from(&self.path);
         }
         frame.line = start;

@@ -173,7 +173,7 @@ impl FrameReader for XyzReader {
                 }
             }
         };
-        if frame.path != self.path {
+        if frame.path.as_os_str() != self.path.as_os_str() {
             frame.path.clone_from(&self.path);
         }
         frame.line = count_line;
