@@ -312,7 +312,8 @@ pub(crate) fn decimal_digits_value(
     Some(with_sign(v, neg))
 }
 
-/// A decimal in fixed columns of a 64-byte window, its point and last
+/// A decimal in fixed columns of a 64-byte window (read with 8 bytes more,
+/// so that every word is whole), its point and last
 /// fraction digit known in advance (a line of a fixed-format file), with
 /// what its value needs precomputed: [`FixedDecimal::value`] then takes the
 /// integer and fraction digits as two words of the window, without bounds
@@ -358,13 +359,14 @@ impl FixedDecimal {
     /// integer digits or for a significand above 2^53. Exactly what
     /// `str::parse::<f64>` gives for the field.
     #[inline(always)]
-    pub(crate) fn value(&self, w: &[u8; 64], k_int: u32, neg: bool) -> Option<f64> {
+    pub(crate) fn value(&self, w: &[u8; 72], k_int: u32, neg: bool) -> Option<f64> {
         const ZEROS: u64 = 0x3030_3030_3030_3030;
         if k_int > 8 {
             return None;
         }
+        // Every word starts before byte 64, so it ends inside the 72 bytes.
         let word = |at: u32| {
-            let at = (at as usize).min(56);
+            let at = (at & 63) as usize;
             let mut b = [0u8; 8];
             b.copy_from_slice(&w[at..at + 8]);
             u64::from_le_bytes(b)
@@ -537,7 +539,7 @@ mod tests {
             at in 1usize..40,
         ) {
             let field = format!("{}{int}.{frac}", if neg { "-" } else { "" });
-            let mut w = [b' '; 64];
+            let mut w = [b' '; 72];
             w[at..at + field.len()].copy_from_slice(field.as_bytes());
             let point = (at + field.len() - frac.len() - 1) as u32;
             let end = (at + field.len() - 1) as u32;

@@ -30,7 +30,7 @@ use super::number::{
     plain_decimal_before_newline, FixedDecimal,
 };
 use super::window::Classes;
-use super::{element_from_bytes, finish_names, Frame, FrameReader, ReadOptions};
+use super::{element_from_bytes, finish_names, Element, Frame, FrameReader, ReadOptions};
 use crate::error::{Error, Result};
 use crate::geometry::Vec3;
 
@@ -180,8 +180,6 @@ impl FrameReader for XyzReader {
         frame.index_in_file = self.frames;
         frame.title.clear();
         frame.energy = None;
-        frame.elements.clear();
-        frame.coords.clear();
         frame.charges.clear();
         frame.bonds.clear();
         frame.has_bonds = false;
@@ -206,8 +204,9 @@ impl FrameReader for XyzReader {
         frame.energy = comment_energy(comment, self.key.as_deref())
             .map_err(|m| Error::parse(&self.path, cno, m))?;
 
-        frame.elements.reserve(n);
-        frame.coords.reserve(n);
+        // Sized once; every slot is written below before the frame is whole.
+        frame.elements.resize(n, Element::H);
+        frame.coords.resize(n, Vec3::zeros());
         let mut k = 0;
         while k < n {
             // As many lines as the in-place paths take, counted at once.
@@ -216,8 +215,8 @@ impl FrameReader for XyzReader {
                 &mut self.layout,
                 self.layout_on,
                 &mut self.layout_misses,
-                frame,
-                n - k,
+                &mut frame.elements[k..],
+                &mut frame.coords[k..],
             );
             if run.lines > 0 {
                 self.lines.consume_run(run.bytes, run.lines, run.last);
@@ -268,8 +267,8 @@ impl FrameReader for XyzReader {
                 *slot =
                     coordinate(rest, axis, &mut i).map_err(|m| Error::parse(&self.path, no, m))?;
             }
-            frame.elements.push(el);
-            frame.coords.push(Vec3::new(xyz[0], xyz[1], xyz[2]));
+            frame.elements[k] = el;
+            frame.coords[k] = Vec3::new(xyz[0], xyz[1], xyz[2]);
             k += 1;
         }
         frame.charges.resize(n, 0);
@@ -288,7 +287,8 @@ struct Run {
     last: usize,
 }
 
-/// Reads up to `max` atom lines from the start of `buf` into `frame` by the
+/// Reads atom lines from the start of `buf` into `elements` and `coords`
+/// (as many as they hold, at most) by the
 /// in-place paths (the learned layout, then [`masked_atom_line`], then
 /// [`plain_atom_line`]), stopping at the first line none of them takes,
 /// which the caller reads by the general path.
@@ -298,9 +298,10 @@ fn fast_run(
     layout: &mut Option<Layout>,
     layout_on: bool,
     misses: &mut u32,
-    frame: &mut Frame,
-    max: usize,
+    elements: &mut [Element],
+    coords: &mut [Vec3],
 ) -> Run {
+    let max = elements.len().min(coords.len());
     let mut run = Run {
         lines: 0,
         bytes: 0,
@@ -308,13 +309,12 @@ fn fast_run(
     };
     while run.lines < max {
         let rest = buf.get(run.bytes..).unwrap_or_default();
-        let atom = rest
-            .get(..64)
-            .and_then(|w| <&[u8; 64]>::try_from(w).ok())
-            .and_then(|window| {
-                if let Some(a) = layout.as_ref().and_then(|l| l.read(window)) {
-                    return Some(a);
-                }
+        let fixed = match (layout.as_ref(), rest.first_chunk::<72>()) {
+            (Some(l), Some(w)) => l.read(w),
+            _ => None,
+        };
+        let atom = fixed.or_else(|| {
+            rest.first_chunk::<64>().and_then(|window| {
                 let c = super::window::classify(window);
                 *misses += 1;
                 let a = masked_atom_line(rest, &c)?;
@@ -322,12 +322,13 @@ fn fast_run(
                     *layout = Layout::learn(&c, a.2 as u32 - 1);
                 }
                 Some(a)
-            });
+            })
+        });
         let Some((el, xyz, len)) = atom.or_else(|| plain_atom_line(rest)) else {
             break;
         };
-        frame.elements.push(el);
-        frame.coords.push(xyz);
+        elements[run.lines] = el;
+        coords[run.lines] = xyz;
         run.lines += 1;
         run.bytes += len;
         run.last = len;
@@ -400,10 +401,11 @@ impl Layout {
     /// element and values. `None` for any other line.
     #[inline(always)]
     /// `c` holds the byte classes of `buf[..64]`.
-    fn read(&self, window: &[u8; 64]) -> Option<(super::Element, Vec3, usize)> {
-        // Only two classes as masks; the few other bytes are looked at one
+    fn read(&self, window: &[u8; 72]) -> Option<(super::Element, Vec3, usize)> {
+        // Only two classes as masks, of the first 64 bytes (the other 8 only
+        // complete the digit words); the few other bytes are looked at one
         // by one: the `\n`, the points and the signs.
-        let (space, digit) = super::window::spaces_and_digits(window);
+        let (space, digit) = super::window::spaces_and_digits(window.first_chunk::<64>()?);
         let byte = |i: u32| window[(i & 63) as usize];
         let len = self.len;
         let line = (1u64 << len) - 1;
@@ -814,7 +816,7 @@ mod tests {
         let (_, _, len) = masked_atom_line(&a, &classes(&a))?;
         let layout = Layout::learn(&classes(&a), len as u32 - 1)?;
         let b = buffered(second);
-        bits(layout.read(b[..64].try_into().unwrap()))
+        bits(layout.read(b[..72].try_into().unwrap()))
     }
 
     #[test]
