@@ -330,6 +330,28 @@ impl BlockAverager {
             self.skipped += 1;
             return;
         }
+        let y = self.add_to_levels(x);
+        self.partial_sum += y;
+        self.partial_n += 1;
+        if self.partial_n == self.store_block {
+            self.store.push(self.partial_sum / self.store_block as f64);
+            self.partial_sum = 0.0;
+            self.partial_n = 0;
+            if self.store.len() == self.store_capacity {
+                let half = self.store_capacity / 2;
+                for i in 0..half {
+                    self.store[i] = 0.5 * (self.store[2 * i] + self.store[2 * i + 1]);
+                }
+                self.store.truncate(half);
+                self.store_block *= 2;
+            }
+        }
+    }
+
+    /// Adds the finite value `x` to the range and the blocking levels;
+    /// returns it shifted by the first value.
+    #[inline(always)]
+    fn add_to_levels(&mut self, x: f64) -> f64 {
         // x is finite here, so plain comparisons give min and max.
         if x < self.min {
             self.min = x;
@@ -349,21 +371,7 @@ impl BlockAverager {
             None => l0.pending = Some(y),
             Some(p) => self.carry(0.5 * (p + y)),
         }
-        self.partial_sum += y;
-        self.partial_n += 1;
-        if self.partial_n == self.store_block {
-            self.store.push(self.partial_sum / self.store_block as f64);
-            self.partial_sum = 0.0;
-            self.partial_n = 0;
-            if self.store.len() == self.store_capacity {
-                let half = self.store_capacity / 2;
-                for i in 0..half {
-                    self.store[i] = 0.5 * (self.store[2 * i] + self.store[2 * i + 1]);
-                }
-                self.store.truncate(half);
-                self.store_block *= 2;
-            }
-        }
+        y
     }
 
     /// Adds the pair mean `v` to level 1 and carries on up the levels.
@@ -456,30 +464,10 @@ impl BlockAverager {
         })
     }
 
-    /// Like [`push`](Self::push) but without the drift store (for the halves).
+    /// Like [`push`](Self::push) but without the drift store (for the
+    /// halves, whose values are finite block means).
     fn push_level_only(&mut self, x: f64) {
-        self.min = self.min.min(x);
-        self.max = self.max.max(x);
-        let shift = *self.shift.get_or_insert(x);
-        let mut v = x - shift;
-        let mut k = 0;
-        loop {
-            if k == self.levels.len() {
-                self.levels.push(Level::default());
-            }
-            let level = &mut self.levels[k];
-            level.add(v);
-            match level.pending.take() {
-                None => {
-                    level.pending = Some(v);
-                    break;
-                }
-                Some(p) => {
-                    v = 0.5 * (p + v);
-                    k += 1;
-                }
-            }
-        }
+        self.add_to_levels(x);
     }
 }
 

@@ -306,6 +306,42 @@ struct Pyranoside {
     h6: [usize; 2],
 }
 
+impl Pyranoside {
+    /// The ring pairs H1–H2 … H4–H5 and H5–H6 (both H6), prepared with the
+    /// built-in library and the default models.
+    fn prepared(&self) -> vicinal::karplus::PreparedSet {
+        let top = self.mol.topology();
+        let mut pairs = vec![];
+        for k in 1..5 {
+            pairs.push(pair(
+                &top,
+                self.h[k],
+                self.ring[k],
+                self.ring[k + 1],
+                self.h[k + 1],
+                FragmentKind::HCsp3Csp3H,
+            ));
+        }
+        for &h6 in &self.h6 {
+            pairs.push(pair(
+                &top,
+                self.h[5],
+                self.ring[5],
+                self.c6,
+                h6,
+                FragmentKind::HCsp3Csp3H,
+            ));
+        }
+        prepare_all(
+            &pairs,
+            &top,
+            &ParamLibrary::builtin(),
+            &ModelChoice::default(),
+        )
+        .unwrap()
+    }
+}
+
 /// Methyl β-D-hexopyranoside in an ideal 4C1 chair (all bonds 1.54 Å in the
 /// ring, C–H 1.10, C–O 1.43 exocyclic). `o4_axial` false gives the gluco
 /// configuration (all substituents equatorial), true the galacto (O4 axial).
@@ -785,15 +821,7 @@ proptest! {
     #[test]
     fn batch_matches_pair_by_pair(omega in -180.0f64..180.0, axial in proptest::bool::ANY, broken in 0usize..6) {
         let g = pyranoside(axial, omega);
-        let top = g.mol.topology();
-        let mut pairs = vec![];
-        for k in 1..5 {
-            pairs.push(pair(&top, g.h[k], g.ring[k], g.ring[k + 1], g.h[k + 1], FragmentKind::HCsp3Csp3H));
-        }
-        for &h6 in &g.h6 {
-            pairs.push(pair(&top, g.h[5], g.ring[5], g.c6, h6, FragmentKind::HCsp3Csp3H));
-        }
-        let set = prepare_all(&pairs, &top, &ParamLibrary::builtin(), &ModelChoice::default()).unwrap();
+        let set = g.prepared();
         let batch = PairBatch::new(&set.pairs);
         let mut out = vec![0.0; set.pairs.len()];
         batch.evaluate(&set.pairs, &g.mol.xyz, &mut out).unwrap();
@@ -821,15 +849,7 @@ proptest! {
     #[test]
     fn mirror_symmetry(omega in -180.0f64..180.0, axial in proptest::bool::ANY, plane in 0usize..3) {
         let g = pyranoside(axial, omega);
-        let top = g.mol.topology();
-        let mut pairs = vec![];
-        for k in 1..5 {
-            pairs.push(pair(&top, g.h[k], g.ring[k], g.ring[k + 1], g.h[k + 1], FragmentKind::HCsp3Csp3H));
-        }
-        for &h6 in &g.h6 {
-            pairs.push(pair(&top, g.h[5], g.ring[5], g.c6, h6, FragmentKind::HCsp3Csp3H));
-        }
-        let set = prepare_all(&pairs, &top, &ParamLibrary::builtin(), &ModelChoice::default()).unwrap();
+        let set = g.prepared();
         let m: Vec<Vec3> = g.mol.xyz.iter().map(|p| { let mut q = *p; q[plane] = -q[plane]; q }).collect();
         for pp in &set.pairs {
             let j = pp.evaluate(&g.mol.xyz).unwrap().1;

@@ -639,11 +639,8 @@ mod tests {
     /// less accurate of the two.
     #[test]
     fn brute_force_case_m2_n4() {
-        let mut rng = Xoshiro256StarStar::seed_from_u64(60011);
-        let p = random_problem(&mut rng, 2, 4);
-        let x = solve_populations(&p).unwrap();
-        check_kkt(&p, &x);
-        assert!(p.chi2(&x) <= brute_force(&p) + 1e-8);
+        let (got, best) = fit_and_enumeration(60011, 2, 4);
+        assert!(got <= best + 1e-8);
     }
 
     /// A case proptest shrank to (m = 2, n = 2, seed 63949): the optimum is
@@ -653,12 +650,18 @@ mod tests {
     /// (negatives clamped, sum renormalised) of each solve.
     #[test]
     fn brute_force_case_m2_n2_vertex() {
-        let mut rng = Xoshiro256StarStar::seed_from_u64(63949);
-        let p = random_problem(&mut rng, 2, 2);
+        let (got, best) = fit_and_enumeration(63949, 2, 2);
+        assert!(got <= best + 1e-8 * (1.0 + best), "fit {got} brute {best}");
+    }
+
+    /// χ² of the fit (checked against KKT) and of the enumeration, for the
+    /// random m × n problem of `seed`.
+    fn fit_and_enumeration(seed: u64, m: usize, n: usize) -> (f64, f64) {
+        let mut rng = Xoshiro256StarStar::seed_from_u64(seed);
+        let p = random_problem(&mut rng, m, n);
         let x = solve_populations(&p).unwrap();
         check_kkt(&p, &x);
-        let (got, best) = (p.chi2(&x), brute_force(&p));
-        assert!(got <= best + 1e-8 * (1.0 + best), "fit {got} brute {best}");
+        (p.chi2(&x), brute_force(&p))
     }
 
     proptest! {
@@ -668,12 +671,7 @@ mod tests {
             n in 1usize..5,
             seed in 0u64..100_000,
         ) {
-            let mut rng = Xoshiro256StarStar::seed_from_u64(seed);
-            let p = random_problem(&mut rng, m, n);
-            let x = solve_populations(&p).unwrap();
-            check_kkt(&p, &x);
-            let got = p.chi2(&x);
-            let best = brute_force(&p);
+            let (got, best) = fit_and_enumeration(seed, m, n);
             // Never worse than the enumeration; the enumeration's SVD solves
             // of near-singular KKT systems can themselves be a little off.
             prop_assert!(got <= best + 1e-8 * (1.0 + best), "fit {got} brute {best}");

@@ -57,11 +57,14 @@ fn is_blank(b: u8) -> bool {
     matches!(b, b' ' | b'\t' | b'\r' | b'\x0b' | b'\x0c')
 }
 
+/// Eight ASCII zeros as a little-endian word.
+const ZEROS: u64 = 0x3030_3030_3030_3030;
+
 /// True if all eight bytes of the little-endian word are ASCII digits.
 #[inline]
 fn is_8_digits(v: u64) -> bool {
     let a = v.wrapping_add(0x4646_4646_4646_4646);
-    let b = v.wrapping_sub(0x3030_3030_3030_3030);
+    let b = v.wrapping_sub(ZEROS);
     (a | b) & 0x8080_8080_8080_8080 == 0
 }
 
@@ -69,14 +72,33 @@ fn is_8_digits(v: u64) -> bool {
 /// lowest byte), by the multiply-and-shift method of Lemire's fast_float.
 #[inline]
 fn parse_8_digits(v: u64) -> u64 {
+    digit_values(v.wrapping_sub(ZEROS))
+}
+
+/// [`parse_8_digits`] of a word whose bytes are already digit values 0..=9.
+#[inline(always)]
+fn digit_values(v: u64) -> u64 {
     const MASK: u64 = 0x0000_00FF_0000_00FF;
     const MUL1: u64 = 0x000F_4240_0000_0064; // 100 + (1_000_000 << 32)
     const MUL2: u64 = 0x0000_2710_0000_0001; // 1 + (10_000 << 32)
-    let v = v.wrapping_sub(0x3030_3030_3030_3030);
     let v = v.wrapping_mul(10).wrapping_add(v >> 8);
     let v1 = (v & MASK).wrapping_mul(MUL1);
     let v2 = ((v >> 16) & MASK).wrapping_mul(MUL2);
     (v1.wrapping_add(v2) >> 32) as u32 as u64
+}
+
+/// The bytes of `keep` (all ones or all zeros each) of the ASCII word `w`
+/// as a number, the other bytes read as leading zeros: the digits of a
+/// field that end at the word's top byte.
+#[inline(always)]
+fn kept_digits(w: u64, keep: u64) -> u64 {
+    parse_8_digits((w & keep) | (ZEROS & !keep))
+}
+
+/// The mask of the top `k` bytes of a word (`k` in 0..=8).
+#[inline(always)]
+fn top_bytes(k: u32) -> u64 {
+    u64::MAX.checked_shl(8 * (8 - k)).unwrap_or(0)
 }
 
 #[inline]
@@ -120,18 +142,12 @@ fn word_at(line: &[u8], i: usize) -> Option<u64> {
 #[inline(always)]
 fn leading_digits(w: u64) -> (usize, u64) {
     let a = w.wrapping_add(0x4646_4646_4646_4646);
-    let d = w.wrapping_sub(0x3030_3030_3030_3030);
+    let d = w.wrapping_sub(ZEROS);
     let k = (((a | d) & 0x8080_8080_8080_8080).trailing_zeros() / 8) as usize;
     // The low k bytes of `d` are the digit values; moving them to the top
     // makes the lower bytes leading zeros.
     let top = d.checked_shl(8 * (8 - k) as u32).unwrap_or(0);
-    const MASK: u64 = 0x0000_00FF_0000_00FF;
-    const MUL1: u64 = 0x000F_4240_0000_0064;
-    const MUL2: u64 = 0x0000_2710_0000_0001;
-    let v = top.wrapping_mul(10).wrapping_add(top >> 8);
-    let v1 = (v & MASK).wrapping_mul(MUL1);
-    let v2 = ((v >> 16) & MASK).wrapping_mul(MUL2);
-    (k, (v1.wrapping_add(v2) >> 32) as u32 as u64)
+    (k, digit_values(top))
 }
 
 /// An optional sign at `s[*i]`: true for `-`; steps `*i` past a `-` or `+`.
@@ -276,7 +292,6 @@ pub(crate) fn decimal_digits_value(
     k_frac: u32,
     neg: bool,
 ) -> Option<f64> {
-    const ZEROS: u64 = 0x3030_3030_3030_3030;
     if k_int > 8 || k_frac > 8 {
         return None;
     }
@@ -286,8 +301,7 @@ pub(crate) fn decimal_digits_value(
     let base = point.max(8) - 8;
     // (With no integer digits the shift may be 64 bits; `keep` is 0 then.)
     let w = load8(buf, base as usize)?.wrapping_shl(8 * (8 + base - point));
-    let keep = u64::MAX.checked_shl(8 * (8 - k_int)).unwrap_or(0);
-    let int = parse_8_digits((w & keep) | (ZEROS & !keep));
+    let int = kept_digits(w, top_bytes(k_int));
     let frac = if k_frac == 0 {
         0
     } else {
@@ -295,14 +309,7 @@ pub(crate) fn decimal_digits_value(
         // point; subtracting '0' first keeps the borrows out of them, then
         // the shift drops the bytes past the field.
         let w = load8(buf, point as usize + 1)?;
-        let d = w.wrapping_sub(ZEROS) << (8 * (8 - k_frac));
-        const MASK: u64 = 0x0000_00FF_0000_00FF;
-        const MUL1: u64 = 0x000F_4240_0000_0064;
-        const MUL2: u64 = 0x0000_2710_0000_0001;
-        let v = d.wrapping_mul(10).wrapping_add(d >> 8);
-        let v1 = (v & MASK).wrapping_mul(MUL1);
-        let v2 = ((v >> 16) & MASK).wrapping_mul(MUL2);
-        (v1.wrapping_add(v2) >> 32) as u32 as u64
+        digit_values(w.wrapping_sub(ZEROS) << (8 * (8 - k_frac)))
     };
     let mant = int * POW10_U64[k_frac as usize] + frac;
     if mant > MAX_EXACT {
@@ -348,7 +355,7 @@ impl FixedDecimal {
             int_base,
             int_shift: 8 * (8 + int_base - point),
             frac_base: end - 7,
-            frac_keep: u64::MAX << (8 * (8 - k_frac)),
+            frac_keep: top_bytes(k_frac),
             pow_u: POW10_U64[k_frac as usize],
             pow_f: POW10[k_frac as usize],
         })
@@ -360,7 +367,6 @@ impl FixedDecimal {
     /// `str::parse::<f64>` gives for the field.
     #[inline(always)]
     pub(crate) fn value(&self, w: &[u8; 72], k_int: u32, neg: bool) -> Option<f64> {
-        const ZEROS: u64 = 0x3030_3030_3030_3030;
         if k_int > 8 {
             return None;
         }
@@ -373,10 +379,8 @@ impl FixedDecimal {
         };
         // (With no integer digits the shift may leave garbage; `keep` is 0.)
         let wi = word(self.int_base).wrapping_shl(self.int_shift);
-        let keep = u64::MAX.checked_shl(8 * (8 - k_int)).unwrap_or(0);
-        let int = parse_8_digits((wi & keep) | (ZEROS & !keep));
-        let wf = word(self.frac_base);
-        let frac = parse_8_digits((wf & self.frac_keep) | (ZEROS & !self.frac_keep));
+        let int = kept_digits(wi, top_bytes(k_int));
+        let frac = kept_digits(word(self.frac_base), self.frac_keep);
         let mant = int * self.pow_u + frac;
         if mant > MAX_EXACT {
             return None;

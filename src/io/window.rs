@@ -76,6 +76,18 @@ mod sse2 {
 
     #[inline(always)]
     pub(super) fn classify(w: &[u8; 64]) -> Classes {
+        masks::<true>(w)
+    }
+
+    #[inline(always)]
+    pub(super) fn spaces_and_digits(w: &[u8; 64]) -> (u64, u64) {
+        let c = masks::<false>(w);
+        (c.space, c.digit)
+    }
+
+    /// The space and digit masks, and with `ALL` the other classes too.
+    #[inline(always)]
+    fn masks<const ALL: bool>(w: &[u8; 64]) -> Classes {
         let mut c = Classes::default();
         for k in 0..4 {
             let shift = 16 * k as u32;
@@ -85,39 +97,22 @@ mod sse2 {
             unsafe {
                 let v = _mm_loadu_si128(w.as_ptr().add(16 * k).cast::<__m128i>());
                 let bits = |m: __m128i| u64::from(_mm_movemask_epi8(m) as u16) << shift;
+                let is = |b: u8| bits(_mm_cmpeq_epi8(v, _mm_set1_epi8(b as i8)));
                 // Signed byte compares: bytes >= 0x80 are negative, so never digits.
                 let digit = _mm_and_si128(
                     _mm_cmpgt_epi8(v, _mm_set1_epi8(b'0' as i8 - 1)),
                     _mm_cmplt_epi8(v, _mm_set1_epi8(b'9' as i8 + 1)),
                 );
-                c.space |= bits(_mm_cmpeq_epi8(v, _mm_set1_epi8(b' ' as i8)));
+                c.space |= is(b' ');
                 c.digit |= bits(digit);
-                c.dot |= bits(_mm_cmpeq_epi8(v, _mm_set1_epi8(b'.' as i8)));
-                c.minus |= bits(_mm_cmpeq_epi8(v, _mm_set1_epi8(b'-' as i8)));
-                c.newline |= bits(_mm_cmpeq_epi8(v, _mm_set1_epi8(b'\n' as i8)));
+                if ALL {
+                    c.dot |= is(b'.');
+                    c.minus |= is(b'-');
+                    c.newline |= is(b'\n');
+                }
             }
         }
         c
-    }
-
-    #[inline(always)]
-    pub(super) fn spaces_and_digits(w: &[u8; 64]) -> (u64, u64) {
-        let (mut space, mut digit) = (0u64, 0u64);
-        for k in 0..4 {
-            let shift = 16 * k as u32;
-            // SAFETY: as in `classify`.
-            unsafe {
-                let v = _mm_loadu_si128(w.as_ptr().add(16 * k).cast::<__m128i>());
-                let bits = |m: __m128i| u64::from(_mm_movemask_epi8(m) as u16) << shift;
-                let d = _mm_and_si128(
-                    _mm_cmpgt_epi8(v, _mm_set1_epi8(b'0' as i8 - 1)),
-                    _mm_cmplt_epi8(v, _mm_set1_epi8(b'9' as i8 + 1)),
-                );
-                space |= bits(_mm_cmpeq_epi8(v, _mm_set1_epi8(b' ' as i8)));
-                digit |= bits(d);
-            }
-        }
-        (space, digit)
     }
 }
 
