@@ -396,11 +396,11 @@ impl Layout {
         })
     }
 
-    /// The atom line at the start of `buf` if it has this layout: exactly
-    /// the bytes [`masked_atom_line`] would accept there, with the same
-    /// element and values. `None` for any other line.
+    /// The atom line at the start of `window` (the next 72 bytes of input)
+    /// if it has this layout: exactly the bytes [`masked_atom_line`] would
+    /// accept there, with the same element and values. `None` for any other
+    /// line.
     #[inline(always)]
-    /// `c` holds the byte classes of `buf[..64]`.
     fn read(&self, window: &[u8; 72]) -> Option<(super::Element, Vec3, usize)> {
         // Only two classes as masks, of the first 64 bytes (the other 8 only
         // complete the digit words); the few other bytes are looked at one
