@@ -389,6 +389,102 @@ impl FixedDecimal {
     }
 }
 
+/// A decimal in fixed columns of a 64-byte window, read with SSSE3 for the
+/// wide line path of the XYZ reader: its point and last fraction digit are
+/// fixed, and its integer digits lie in a zone of columns that ends at the
+/// point. The caller checks the zone's bytes (blanks, at most a sign, then
+/// digits up to the point) and the fraction digits; [`WideDecimal::value`]
+/// then lines the digits up in one register without the point, makes them
+/// values and sums them in pairs, quads and octets (the classic SIMD digit
+/// reduction). At most 15 digits are read, so the significand is below
+/// 2^53 and the Clinger fast path gives exactly what `str::parse::<f64>`
+/// gives.
+#[derive(Debug, Clone, Copy, PartialEq)]
+#[cfg_attr(not(target_arch = "x86_64"), allow(dead_code))]
+pub(crate) struct WideDecimal {
+    /// Start of the 16 bytes that end at the last fraction digit (or the
+    /// window's start).
+    base: u32,
+    /// The byte shuffle from those 16 bytes: lane 15 the last digit, lane
+    /// 15 − m the column of the digit of weight 10^m, 0x80 (zero) for lanes
+    /// outside the zone and the fraction.
+    gather: [u8; 16],
+    /// 10^k, k the number of fraction digits.
+    pow_f: f64,
+}
+
+impl WideDecimal {
+    /// Most digits a field may have (integer and fraction together).
+    pub(crate) const MAX_DIGITS: u32 = 15;
+
+    /// The columns of a decimal whose integer digits may occupy columns
+    /// `zone..point` (only the top `MAX_DIGITS − k` of them are read, k the
+    /// number of fraction digits: the caller must check that the rest hold
+    /// no digit), its point at `point` and its last fraction digit at `end`,
+    /// with 1 to 8 fraction digits and `end < 64`; `None` otherwise.
+    pub(crate) fn new(zone: u32, point: u32, end: u32) -> Option<WideDecimal> {
+        let k_frac = end.checked_sub(point)?;
+        if !(1..=8).contains(&k_frac) || end >= 64 || zone > point {
+            return None;
+        }
+        let base = end.saturating_sub(15);
+        let mut gather = [0x80u8; 16];
+        for (lane, g) in (0u32..).zip(gather.iter_mut()) {
+            // The column of the digit of weight 10^(15 − lane): past the
+            // point for the fraction, one further left for the integer part.
+            let weight = 15 - lane;
+            let column = if weight < k_frac {
+                Some(end - weight)
+            } else {
+                end.checked_sub(weight + 1)
+            };
+            if let Some(c) = column.filter(|&c| c >= base && c >= zone) {
+                *g = (c - base) as u8;
+            }
+        }
+        Some(WideDecimal {
+            base,
+            gather,
+            pow_f: POW10[k_frac as usize],
+        })
+    }
+
+    /// The value of the field in `w` (negative if `neg`), its bytes checked
+    /// by the caller as [`WideDecimal`] says: the digits of its zone and
+    /// fraction, with every other byte of the zone a blank or the sign.
+    ///
+    /// # Safety
+    /// The CPU must have SSSE3 (a [`super::window::Wide`] proves it).
+    /// (Not marked with the feature itself, so that it inlines into its
+    /// caller, which is.)
+    #[cfg(target_arch = "x86_64")]
+    #[inline(always)]
+    pub(crate) unsafe fn value(&self, w: &[u8; 64], neg: bool) -> f64 {
+        use std::arch::x86_64::{
+            __m128i, _mm_cvtsi128_si64, _mm_loadu_si128, _mm_madd_epi16, _mm_maddubs_epi16,
+            _mm_packs_epi32, _mm_set1_epi16, _mm_set1_epi32, _mm_set1_epi8, _mm_shuffle_epi8,
+            _mm_subs_epu8,
+        };
+        // SAFETY: the caller guarantees SSSE3 (the rest is SSE2, part of
+        // the x86_64 baseline); the load reads bytes base..base + 16 <=
+        // end + 1 <= 64 of the window, and the shuffle pattern is a 16-byte
+        // array; both unaligned.
+        let mant = unsafe {
+            let bytes = _mm_loadu_si128(w.as_ptr().add(self.base as usize).cast::<__m128i>());
+            let gather = _mm_loadu_si128(self.gather.as_ptr().cast::<__m128i>());
+            // Digits become 0..=9; blanks, the sign and the zeroed lanes 0
+            // (saturating subtraction).
+            let d = _mm_subs_epu8(_mm_shuffle_epi8(bytes, gather), _mm_set1_epi8(b'0' as i8));
+            let pairs = _mm_maddubs_epi16(d, _mm_set1_epi16(0x010a));
+            let quads = _mm_madd_epi16(pairs, _mm_set1_epi32(0x0001_0064));
+            let octets = _mm_madd_epi16(_mm_packs_epi32(quads, quads), _mm_set1_epi32(0x0001_2710));
+            let both = _mm_cvtsi128_si64(octets) as u64;
+            (both & 0xffff_ffff) * 100_000_000 + (both >> 32)
+        };
+        with_sign(mant as f64 / self.pow_f, neg)
+    }
+}
+
 /// The Clinger fast path on a whole token; `None` when the token is not a
 /// plain decimal that the fast path can round correctly.
 #[inline]
@@ -559,6 +655,41 @@ mod tests {
                     }
                 }
             }
+        }
+    }
+
+    proptest::proptest! {
+        /// A [`WideDecimal`] anywhere in a window, its zone reaching from
+        /// any column up to the point, reads as std does.
+        #[test]
+        #[cfg(target_arch = "x86_64")]
+        fn wide_decimal_reads_as_std(
+            neg in proptest::bool::ANY,
+            int in "[0-9]{0,9}",
+            frac in "[0-9]{1,8}",
+            at in 1usize..40,
+            room in 0usize..12,
+        ) {
+            let Some(_wide) = super::super::window::Wide::detect() else {
+                return Ok(());
+            };
+            let field = format!("{}{int}.{frac}", if neg { "-" } else { "" });
+            let mut w = [b'7'; 64];
+            w[at..at + field.len()].copy_from_slice(field.as_bytes());
+            let point = (at + field.len() - frac.len() - 1) as u32;
+            let end = (at + field.len() - 1) as u32;
+            // The zone starts at the sign (or first digit) or up to `room`
+            // blanks before it; digits ('7') fill the window outside.
+            let zone = at.saturating_sub(room).max(1);
+            w[zone..at].fill(b' ');
+            if int.len() + frac.len() > 15 {
+                return Ok(());
+            }
+            let d = WideDecimal::new(zone as u32, point, end).unwrap();
+            // SAFETY: `Wide::detect` found SSSE3.
+            let got = unsafe { d.value(&w, neg) };
+            let want: f64 = field.parse().unwrap();
+            proptest::prop_assert_eq!(got.to_bits(), want.to_bits(), "{}", field);
         }
     }
 

@@ -4,6 +4,54 @@
 //! time; SSE2 is part of the x86_64 baseline, so no run-time check is
 //! needed); elsewhere from a plain byte loop that gives the same masks.
 
+/// Which instructions the hot loops of the readers may use: [`Baseline`]
+/// (x86-64's SSE2, or portable code elsewhere) or [`Wide`]. A loop generic
+/// over `I: Isa` takes a value of `I`, so that its wide instance can only be
+/// reached with the proof that [`Wide::detect`] returns.
+pub(crate) trait Isa: Copy {
+    /// True for [`Wide`].
+    const WIDE: bool;
+}
+
+/// The instructions every target has.
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct Baseline;
+
+impl Isa for Baseline {
+    const WIDE: bool = false;
+}
+
+/// Proof that this CPU has AVX2, SSSE3, POPCNT, LZCNT, BMI1 and BMI2 (the
+/// x86-64 machines of the last decade); made only by [`Wide::detect`].
+#[derive(Debug, Clone, Copy)]
+pub(crate) struct Wide(());
+
+impl Isa for Wide {
+    const WIDE: bool = true;
+}
+
+impl Wide {
+    /// `Some` when this CPU has the features (checked at run time, once per
+    /// reader).
+    pub(crate) fn detect() -> Option<Wide> {
+        #[cfg(target_arch = "x86_64")]
+        {
+            use std::arch::is_x86_feature_detected as has;
+            (has!("avx2")
+                && has!("ssse3")
+                && has!("popcnt")
+                && has!("lzcnt")
+                && has!("bmi1")
+                && has!("bmi2"))
+            .then_some(Wide(()))
+        }
+        #[cfg(not(target_arch = "x86_64"))]
+        {
+            None
+        }
+    }
+}
+
 /// The classes of the 64 bytes of a window, one bit per byte.
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
 pub(crate) struct Classes {
@@ -45,6 +93,55 @@ pub(crate) fn spaces_and_digits(w: &[u8; 64]) -> (u64, u64) {
         let c = classify_bytes(w);
         (c.space, c.digit)
     }
+}
+
+/// The space, digit and minus masks of [`classify`] by AVX2 compares, 32
+/// bytes at a time, for the wide line path.
+///
+/// # Safety
+/// The CPU must have AVX2 (a [`Wide`] proves it).
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2")]
+#[inline]
+pub(crate) unsafe fn space_digit_minus_avx2(w: &[u8; 64]) -> (u64, u64, u64) {
+    use std::arch::x86_64::{
+        __m256i, _mm256_cmpeq_epi8, _mm256_loadu_si256, _mm256_min_epu8, _mm256_movemask_epi8,
+        _mm256_set1_epi8, _mm256_sub_epi8,
+    };
+    // SAFETY: the two loads read bytes 0..32 and 32..64 of the 64-byte
+    // array, unaligned.
+    let (lo, hi) = unsafe {
+        (
+            _mm256_loadu_si256(w.as_ptr().cast::<__m256i>()),
+            _mm256_loadu_si256(w.as_ptr().add(32).cast::<__m256i>()),
+        )
+    };
+    let space = _mm256_set1_epi8(b' ' as i8);
+    let minus = _mm256_set1_epi8(b'-' as i8);
+    let (zero, nine) = (_mm256_set1_epi8(b'0' as i8), _mm256_set1_epi8(9));
+    // A digit is a byte whose distance above '0' is at most 9.
+    let (dlo, dhi) = (_mm256_sub_epi8(lo, zero), _mm256_sub_epi8(hi, zero));
+    let s = [_mm256_cmpeq_epi8(lo, space), _mm256_cmpeq_epi8(hi, space)];
+    let d = [
+        _mm256_cmpeq_epi8(_mm256_min_epu8(dlo, nine), dlo),
+        _mm256_cmpeq_epi8(_mm256_min_epu8(dhi, nine), dhi),
+    ];
+    let m = [_mm256_cmpeq_epi8(lo, minus), _mm256_cmpeq_epi8(hi, minus)];
+    // (No closure: closures do not take the function's target features.)
+    let (s0, s1) = (
+        _mm256_movemask_epi8(s[0]) as u32,
+        _mm256_movemask_epi8(s[1]) as u32,
+    );
+    let (d0, d1) = (
+        _mm256_movemask_epi8(d[0]) as u32,
+        _mm256_movemask_epi8(d[1]) as u32,
+    );
+    let (m0, m1) = (
+        _mm256_movemask_epi8(m[0]) as u32,
+        _mm256_movemask_epi8(m[1]) as u32,
+    );
+    let join = |lo: u32, hi: u32| u64::from(lo) | u64::from(hi) << 32;
+    (join(s0, s1), join(d0, d1), join(m0, m1))
 }
 
 /// [`classify`] one byte at a time: the portable definition of the masks.
@@ -138,6 +235,12 @@ mod tests {
                     (c.space, c.digit),
                     "byte {b:#04x} at {k}"
                 );
+                #[cfg(target_arch = "x86_64")]
+                if Wide::detect().is_some() {
+                    // SAFETY: the CPU has AVX2, as `Wide::detect` checked.
+                    let wide = unsafe { space_digit_minus_avx2(&w) };
+                    assert_eq!(wide, (c.space, c.digit, c.minus), "byte {b:#04x} at {k}");
+                }
             }
         }
     }

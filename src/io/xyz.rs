@@ -15,7 +15,10 @@
 //! frame has no energy. XYZ carries no atom names, charges or bonds.
 //!
 //! Speed: lines are cut from a 1 MiB block buffer; the common atom line is
-//! read in place with byte-class masks (`io::window`), the rest is parsed from
+//! read in place with byte-class masks (`io::window`): on x86-64 machines with
+//! AVX2 and SSSE3 (checked once per reader), a line in the columns of the
+//! previous one is checked by mask tests alone and its numbers read in SIMD
+//! registers (`WideDecimal`), to the same bits; the rest is parsed from
 //! bytes by [`crate::io::number::parse_f64`], and the frame's vectors are
 //! cleared and refilled, so reading allocates nothing per frame once the first
 //! frame has sized the buffers (the title `String` and the `names` entries keep
@@ -27,9 +30,9 @@ use std::path::PathBuf;
 use super::lines::{show, trim, Lines};
 use super::number::{
     masked_decimal, number_prefix_len, parse_f64, parse_f64_field, plain_decimal_at,
-    plain_decimal_before_newline, FixedDecimal,
+    plain_decimal_before_newline, FixedDecimal, WideDecimal,
 };
-use super::window::Classes;
+use super::window::{Baseline, Classes, Isa, Wide};
 use super::{element_from_bytes, finish_names, Element, Frame, FrameReader, ReadOptions};
 use crate::error::{Error, Result};
 use crate::geometry::Vec3;
@@ -49,6 +52,8 @@ pub struct XyzReader {
     layout_misses: u32,
     /// Frames read with layouts off.
     layout_off_frames: u32,
+    /// Set when this CPU runs [`fast_run_wide`].
+    wide: Option<Wide>,
 }
 
 /// With layouts off, they are tried again on one frame in this many.
@@ -66,6 +71,7 @@ impl XyzReader {
             layout_on: true,
             layout_misses: 0,
             layout_off_frames: 0,
+            wide: Wide::detect(),
         }
     }
 }
@@ -210,14 +216,18 @@ impl FrameReader for XyzReader {
         let mut k = 0;
         while k < n {
             // As many lines as the in-place paths take, counted at once.
-            let run = fast_run(
-                self.lines.rest(),
-                &mut self.layout,
-                self.layout_on,
-                &mut self.layout_misses,
-                &mut frame.elements[k..],
-                &mut frame.coords[k..],
-            );
+            let (buf, layout) = (self.lines.rest(), &mut self.layout);
+            let (on, misses) = (self.layout_on, &mut self.layout_misses);
+            let (elements, coords) = (&mut frame.elements[k..], &mut frame.coords[k..]);
+            let run = match self.wide {
+                // SAFETY: `wide` proves the CPU has the features that
+                // `fast_run_wide` is compiled for.
+                #[cfg(target_arch = "x86_64")]
+                Some(wide) => unsafe {
+                    fast_run_wide(wide, buf, layout, on, misses, elements, coords)
+                },
+                _ => fast_run(Baseline, buf, layout, on, misses, elements, coords),
+            };
             if run.lines > 0 {
                 self.lines.consume_run(run.bytes, run.lines, run.last);
                 k += run.lines;
@@ -293,7 +303,8 @@ struct Run {
 /// [`plain_atom_line`]), stopping at the first line none of them takes,
 /// which the caller reads by the general path.
 #[inline(always)]
-fn fast_run(
+fn fast_run<I: Isa>(
+    isa: I,
     buf: &[u8],
     layout: &mut Option<Layout>,
     layout_on: bool,
@@ -310,21 +321,14 @@ fn fast_run(
     while run.lines < max {
         let rest = buf.get(run.bytes..).unwrap_or_default();
         let fixed = match (layout.as_ref(), rest.first_chunk::<72>()) {
-            (Some(l), Some(w)) => l.read(w),
+            (Some(l), Some(w)) => l.read(isa, w),
             _ => None,
         };
-        let atom = fixed.or_else(|| {
-            rest.first_chunk::<64>().and_then(|window| {
-                let c = super::window::classify(window);
-                *misses += 1;
-                let a = masked_atom_line(rest, &c)?;
-                if layout_on {
-                    *layout = Layout::learn(&c, a.2 as u32 - 1);
-                }
-                Some(a)
-            })
-        });
-        let Some((el, xyz, len)) = atom.or_else(|| plain_atom_line(rest)) else {
+        let atom = match fixed {
+            Some(a) => Some(a),
+            None => masked_or_plain(rest, layout, layout_on, misses),
+        };
+        let Some((el, xyz, len)) = atom else {
             break;
         };
         elements[run.lines] = el;
@@ -334,6 +338,46 @@ fn fast_run(
         run.last = len;
     }
     run
+}
+
+/// The atom line at the start of `rest` by [`masked_atom_line`] (learning
+/// its layout when layouts are on) or else [`plain_atom_line`]: the lines
+/// the learned layout did not read.
+#[inline(never)]
+fn masked_or_plain(
+    rest: &[u8],
+    layout: &mut Option<Layout>,
+    layout_on: bool,
+    misses: &mut u32,
+) -> Option<(Element, Vec3, usize)> {
+    if let Some(window) = rest.first_chunk::<64>() {
+        let c = super::window::classify(window);
+        *misses += 1;
+        if let Some(a) = masked_atom_line(rest, &c) {
+            if layout_on {
+                *layout = Layout::learn(&c, a.2 as u32 - 1);
+            }
+            return Some(a);
+        }
+    }
+    plain_atom_line(rest)
+}
+
+/// [`fast_run`] compiled with the features that [`Wide`] proves (SSSE3
+/// for the numbers, LZCNT and BMI for the masks' bit operations): the same
+/// lines and the same bits, in fewer instructions.
+#[cfg(target_arch = "x86_64")]
+#[target_feature(enable = "avx2,ssse3,popcnt,lzcnt,bmi1,bmi2")]
+fn fast_run_wide(
+    isa: Wide,
+    buf: &[u8],
+    layout: &mut Option<Layout>,
+    layout_on: bool,
+    misses: &mut u32,
+    elements: &mut [Element],
+    coords: &mut [Vec3],
+) -> Run {
+    fast_run(isa, buf, layout, layout_on, misses, elements, coords)
 }
 
 /// The column layout of a fixed-format atom line, learned from one line and
@@ -356,6 +400,32 @@ struct Layout {
     gaps: u64,
     /// Each number's columns, ready for its value.
     number: [FixedDecimal; 3],
+    /// The same columns for [`Layout::read_wide`].
+    wide: WideColumns,
+}
+
+/// What [`Layout::read_wide`] checks a line against: the line's bytes, cut
+/// into the element, the integer zone of each number (the columns from the
+/// second byte after the previous field to the point, where blanks, a sign
+/// and the integer digits go), the points, the fraction digits and the
+/// bytes that must be spaces, as bit masks.
+#[derive(Debug, Clone, Copy)]
+#[cfg_attr(not(target_arch = "x86_64"), allow(dead_code))]
+struct WideColumns {
+    /// Leading blanks, the gaps after the element and the first two
+    /// numbers, and trailing blanks.
+    spaces: u64,
+    /// The element's bytes.
+    elem: u64,
+    /// The three integer zones, together, and each alone.
+    zones: u64,
+    zone: [u64; 3],
+    /// The lowest column of each zone.
+    zone_bottoms: u64,
+    /// Zone columns too far from the point for [`WideDecimal`] (more than
+    /// 15 digits in all): they must not hold a digit.
+    over: u64,
+    number: [WideDecimal; 3],
 }
 
 impl Layout {
@@ -385,6 +455,29 @@ impl Layout {
             FixedDecimal::new(point[1], end[1])?,
             FixedDecimal::new(point[2], end[2])?,
         ];
+        // Bits from..to (to excluded).
+        let span = |from: u32, to: u32| (u64::MAX << from) & !(u64::MAX << to);
+        let bottoms = [elem.1 + 2, end[0] + 2, end[1] + 2];
+        let (mut zone, mut over) = ([0u64; 3], 0u64);
+        let mut wide_number = [None; 3];
+        for k in 0..3 {
+            zone[k] = span(bottoms[k], point[k]);
+            let digits_max = WideDecimal::MAX_DIGITS - (end[k] - point[k]);
+            over |= span(
+                bottoms[k],
+                point[k].saturating_sub(digits_max).max(bottoms[k]),
+            );
+            wide_number[k] = WideDecimal::new(bottoms[k], point[k], end[k]);
+        }
+        let wide = WideColumns {
+            spaces: span(0, elem.0) | gaps | span(end[2] + 1, len),
+            elem: span(elem.0, elem.1 + 1),
+            zones: zone[0] | zone[1] | zone[2],
+            zone,
+            zone_bottoms: bottoms.iter().fold(0, |m, &b| m | 1u64 << b),
+            over,
+            number: [wide_number[0]?, wide_number[1]?, wide_number[2]?],
+        };
         Some(Layout {
             len,
             elem,
@@ -393,15 +486,75 @@ impl Layout {
             fraction,
             gaps,
             number,
+            wide,
         })
+    }
+
+    /// [`Layout::read`] by AVX2 masks and [`WideDecimal`]s: the whole line
+    /// checked by mask tests alone (each zone must read, from its bottom
+    /// up: blanks, at most one `-`, digits), and the three numbers read in
+    /// SIMD registers. The same lines give the same elements and bits; the
+    /// tests compare the two.
+    ///
+    /// # Safety
+    /// The CPU must have the features a [`Wide`] proves.
+    /// (Not marked with the features itself, so that it inlines into
+    /// [`fast_run_wide`], which is.)
+    #[cfg(target_arch = "x86_64")]
+    #[inline(always)]
+    unsafe fn read_wide(&self, window: &[u8; 64]) -> Option<(super::Element, Vec3, usize)> {
+        let c = &self.wide;
+        let len = self.len;
+        if window[(len & 63) as usize] != b'\n' {
+            return None;
+        }
+        // SAFETY: the caller guarantees AVX2.
+        let (space, digit, minus) = unsafe { super::window::space_digit_minus_avx2(window) };
+        if digit & self.fraction != self.fraction
+            || space & c.spaces != c.spaces
+            || space & c.elem != 0
+            || digit & c.over != 0
+            || self
+                .point
+                .iter()
+                .any(|&p| window[(p & 63) as usize] != b'.')
+        {
+            return None;
+        }
+        // The zones' non-digits must sit below their digits (each non-digit
+        // above a zone's bottom has a non-digit under it) and be spaces but
+        // for the top one, which may be the sign.
+        let nondigit = c.zones & !digit;
+        let top = nondigit & !(nondigit >> 1);
+        if ((nondigit & !c.zone_bottoms) >> 1) & !nondigit != 0
+            || nondigit & !space & !(top & minus) != 0
+        {
+            return None;
+        }
+        let el = element_from_bytes(window.get(self.elem.0 as usize..=self.elem.1 as usize)?)?;
+        let mut v = [0.0f64; 3];
+        for (k, slot) in v.iter_mut().enumerate() {
+            // SAFETY: the caller guarantees SSSE3; the zone and fraction
+            // were checked above as `WideDecimal::value` requires.
+            *slot = unsafe { c.number[k].value(window, minus & c.zone[k] != 0) };
+        }
+        Some((el, Vec3::new(v[0], v[1], v[2]), len as usize + 1))
     }
 
     /// The atom line at the start of `window` (the next 72 bytes of input)
     /// if it has this layout: exactly the bytes [`masked_atom_line`] would
     /// accept there, with the same element and values. `None` for any other
     /// line.
+    ///
+    /// For a [`Wide`] `isa`, [`Layout::read_wide`] reads the line instead.
     #[inline(always)]
-    fn read(&self, window: &[u8; 72]) -> Option<(super::Element, Vec3, usize)> {
+    fn read<I: Isa>(&self, _isa: I, window: &[u8; 72]) -> Option<(super::Element, Vec3, usize)> {
+        #[cfg(target_arch = "x86_64")]
+        if I::WIDE {
+            // SAFETY: a value of an `Isa` type with WIDE is a `Wide`, made
+            // only by `Wide::detect` on a CPU with the features.
+            return unsafe { self.read_wide(window.first_chunk::<64>()?) };
+        }
         // Only two classes as masks, of the first 64 bytes (the other 8 only
         // complete the digit words); the few other bytes are looked at one
         // by one: the `\n`, the points and the signs.
@@ -745,6 +898,59 @@ mod tests {
         assert!(!r.read_frame(&mut f).unwrap());
     }
 
+    /// Every frame of `text`, read by the reader as made, or with the wide
+    /// path turned off.
+    fn frames_of(text: &str, wide: bool) -> Vec<(Vec<Element>, Vec<[u64; 3]>)> {
+        let input: Box<dyn BufRead> = Box::new(Cursor::new(text.as_bytes().to_vec()));
+        let mut r = XyzReader::new(input, PathBuf::from("t.xyz"), opts(None));
+        if !wide {
+            r.wide = None;
+        }
+        let mut out = Vec::new();
+        let mut f = Frame::default();
+        while r.read_frame(&mut f).unwrap() {
+            let c = f.coords.iter().map(|c| [c.x, c.y, c.z].map(f64::to_bits));
+            out.push((f.elements.clone(), c.collect()));
+        }
+        out
+    }
+
+    #[test]
+    fn wide_and_baseline_readers_give_the_same_frames() {
+        // Fixed columns with integer parts of every width and sign, lines in
+        // other columns now and then, a free-format stretch, CRLF ends.
+        let mut text = String::new();
+        let mut x: u64 = 0x9e37_79b9_7f4a_7c15;
+        let mut next = || {
+            x ^= x << 13;
+            x ^= x >> 7;
+            x ^= x << 17;
+            x
+        };
+        for frame in 0..400 {
+            text.push_str("5\nframe\n");
+            for atom in 0..5 {
+                let mut v = [0.0f64; 3];
+                for c in &mut v {
+                    let scale = [0.5, 5.0, 50.0, 5e4, 5e8, 5e9][(next() % 6) as usize];
+                    *c = ((next() % 2_000_001) as f64 / 1e6 - 1.0) * scale;
+                }
+                let el = ["C", "H", "O", "Cl", "8"][atom];
+                let line = match frame % 40 {
+                    7 => format!("{el} {:.4} {:.4} {:.4}", v[0], v[1], v[2]),
+                    20..=25 => format!("{el}\t{} {} {}", v[0], v[1], v[2]),
+                    30 => format!("{el}{:19.6}{:19.6}{:19.6}\r", v[0], v[1], v[2]),
+                    _ => format!("{el:<2}{:19.6}{:19.6}{:19.6}", v[0], v[1], v[2]),
+                };
+                text.push_str(&line);
+                text.push('\n');
+            }
+        }
+        let wide = frames_of(&text, true);
+        assert_eq!(wide.len(), 400);
+        assert_eq!(wide, frames_of(&text, false));
+    }
+
     #[test]
     fn write_then_read_is_exact() {
         let mut f = Frame {
@@ -810,13 +1016,42 @@ mod tests {
         bits(masked_atom_line(&buf, &classes(&buf)))
     }
 
-    /// The layout learned from `first`, applied to `second`.
-    fn by_layout(first: &str, second: &str) -> Bits {
+    /// The layout learned from `first`, applied to `second` by the
+    /// instructions of `isa`.
+    fn by_layout_in<I: Isa>(isa: I, first: &str, second: &str) -> Bits {
         let a = buffered(first);
         let (_, _, len) = masked_atom_line(&a, &classes(&a))?;
         let layout = Layout::learn(&classes(&a), len as u32 - 1)?;
         let b = buffered(second);
-        bits(layout.read(b[..72].try_into().unwrap()))
+        bits(layout.read(isa, b[..72].try_into().unwrap()))
+    }
+
+    /// [`by_layout_in`] by both paths; the baseline's answer. They must
+    /// agree where both read the line; the wide path must read every line
+    /// the baseline reads but those past its 15 digits, and may read more
+    /// (integer parts past the baseline's 8 digits), as the general
+    /// definition does.
+    fn by_layout(first: &str, second: &str) -> Bits {
+        let base = by_layout_in(Baseline, first, second);
+        if let Some(wide) = Wide::detect() {
+            let w = by_layout_in(wide, first, second);
+            match (w, base) {
+                (Some(_), Some(_)) => assert_eq!(w, base, "paths differ on {second:?}"),
+                (None, Some(_)) => assert!(too_long_for_wide(second), "{second:?}"),
+                (Some((el, v, _)), None) => {
+                    assert_eq!(Some((el, v)), by_definition(second), "{second:?}")
+                }
+                (None, None) => {}
+            }
+        }
+        base
+    }
+
+    /// True when a field of the line has more than the 15 digits the wide
+    /// path reads (the baseline reads up to 16).
+    fn too_long_for_wide(line: &str) -> bool {
+        line.split_ascii_whitespace()
+            .any(|t| t.bytes().filter(u8::is_ascii_digit).count() > 15)
     }
 
     #[test]
@@ -883,7 +1118,76 @@ mod tests {
         }
     }
 
+    #[test]
+    fn wide_layout_reads_long_integer_parts_and_checks_the_zones() {
+        let first = "C          2.665123          0.572493         -0.778180";
+        let row = |x: &str, y: &str, z: &str| format!("H{x:>18}{y:>18}{z:>18}");
+        // 9 integer digits and 6 fraction digits: 15, the wide path's most.
+        let long = row("123456789.000001", "-987654321.999999", "0.000000");
+        assert_eq!(by_layout(first, &long), masked(&long));
+        if let Some(wide) = Wide::detect() {
+            assert!(by_layout_in(wide, first, &long).is_some());
+            // 10 integer digits: left to the other paths.
+            let longer = row("1234567890.000001", "0.0", "0.000000");
+            assert_eq!(by_layout_in(wide, first, &longer), None);
+            // A sign anywhere but just before the digits, two signs, a sign
+            // alone, a blank among the digits: none is read.
+            for bad in [
+                row("- 1.000000", "2.000000", "3.000000"),
+                row("--1.000000", "2.000000", "3.000000"),
+                row("1-1.000000", "2.000000", "3.000000"),
+                row("1 1.000000", "2.000000", "3.000000"),
+                row("+1.000000", "2.000000", "3.000000"),
+            ] {
+                assert_eq!(by_layout_in(wide, first, &bad), None, "{bad}");
+            }
+            // A sign alone before the point is a number ("-.5").
+            let bare = row("-.000001", "2.000000", "3.000000");
+            assert_eq!(by_layout_in(wide, first, &bare), masked(&bare));
+        }
+    }
+
     proptest::proptest! {
+        /// Lines in the columns of a learned layout, some with one byte
+        /// changed: the wide path and the baseline read the same lines to
+        /// the same bits (but for fields past the wide path's 15 digits), and
+        /// what they read is what the general definition gives.
+        #[test]
+        fn wide_and_baseline_layouts_agree(
+            fields in proptest::collection::vec(
+                (proptest::bool::ANY, "[0-9]{0,9}", "[0-9]{6}"),
+                3,
+            ),
+            change in proptest::option::of((
+                0usize..48,
+                proptest::sample::select(b" -+.09eE\tCx".to_vec()),
+            )),
+        ) {
+            let first = "C       2.665123       0.572493      -0.778180";
+            let mut line = String::from("C");
+            for (neg, int, frac) in &fields {
+                let f = format!("{}{int}.{frac}", if *neg { "-" } else { "" });
+                line.push_str(&format!("{f:>15}"));
+            }
+            let mut bytes = line.into_bytes();
+            if let Some((at, b)) = change {
+                if at < bytes.len() {
+                    bytes[at] = b;
+                }
+            }
+            let line = String::from_utf8(bytes).unwrap();
+            // `by_layout` asserts the two paths agree.
+            if let Some((el, v, len)) = by_layout(first, &line) {
+                proptest::prop_assert_eq!(Some((el, v)), by_definition(&line), "{}", line);
+                proptest::prop_assert_eq!(len, line.len() + 1);
+            }
+            if let Some(wide) = Wide::detect() {
+                if let Some((el, v, _)) = by_layout_in(wide, first, &line) {
+                    proptest::prop_assert_eq!(Some((el, v)), by_definition(&line), "{}", line);
+                }
+            }
+        }
+
         /// Wherever the masked path takes a line, it gives exactly what the
         /// general definition gives (bit for bit), and the line's length.
         #[test]
