@@ -23,6 +23,7 @@ pub mod fit;
 pub mod fragments;
 pub mod geometry;
 pub mod io;
+mod isa;
 pub mod karplus;
 pub mod observed;
 pub mod output;

@@ -822,25 +822,40 @@ proptest! {
     fn batch_matches_pair_by_pair(omega in -180.0f64..180.0, axial in proptest::bool::ANY, broken in 0usize..6) {
         let g = pyranoside(axial, omega);
         let set = g.prepared();
-        let batch = PairBatch::new(&set.pairs);
-        let mut out = vec![0.0; set.pairs.len()];
-        batch.evaluate(&set.pairs, &g.mol.xyz, &mut out).unwrap();
-        for (pp, j) in set.pairs.iter().zip(&out) {
-            prop_assert_eq!(pp.evaluate_j(&g.mol.xyz).unwrap().to_bits(), j.to_bits());
-        }
-        // A proton moved onto its carbon: the first failing pair's error.
-        let mut bad = g.mol.xyz.clone();
-        if broken < 5 {
-            bad[g.h[broken + 1]] = bad[g.ring[broken + 1]];
-        }
-        let want = set.pairs.iter().map(|pp| pp.evaluate_j(&bad)).collect::<Result<Vec<_>, _>>();
-        let got = batch.evaluate(&set.pairs, &bad, &mut out);
-        match want {
-            Ok(js) => {
-                prop_assert!(got.is_ok());
-                prop_assert_eq!(js.iter().map(|j| j.to_bits()).collect::<Vec<_>>(), out.iter().map(|j| j.to_bits()).collect::<Vec<_>>());
+        // The batch as made (AVX where the CPU has it) and its baseline.
+        let made = PairBatch::new(&set.pairs);
+        for batch in [made.clone(), made.baseline_only()] {
+            let mut out = vec![0.0; set.pairs.len()];
+            batch.evaluate(&set.pairs, &g.mol.xyz, &mut out).unwrap();
+            for (pp, j) in set.pairs.iter().zip(&out) {
+                prop_assert_eq!(pp.evaluate_j(&g.mol.xyz).unwrap().to_bits(), j.to_bits());
             }
-            Err(e) => prop_assert_eq!(e.to_string(), got.unwrap_err().to_string()),
+            // A proton moved onto its carbon: the first failing pair's error.
+            let mut bad = g.mol.xyz.clone();
+            if broken < 5 {
+                bad[g.h[broken + 1]] = bad[g.ring[broken + 1]];
+            }
+            let want = set.pairs.iter().map(|pp| pp.evaluate_j(&bad)).collect::<Result<Vec<_>, _>>();
+            let got = batch.evaluate(&set.pairs, &bad, &mut out);
+            match want {
+                Ok(js) => {
+                    prop_assert!(got.is_ok());
+                    prop_assert_eq!(js.iter().map(|j| j.to_bits()).collect::<Vec<_>>(), out.iter().map(|j| j.to_bits()).collect::<Vec<_>>());
+                }
+                Err(e) => prop_assert_eq!(e.to_string(), got.unwrap_err().to_string()),
+            }
+        }
+        // Every shorter list too, so that packs with empty lanes are met.
+        for n in 1..set.pairs.len() {
+            let few = &set.pairs[..n];
+            let made = PairBatch::new(few);
+            for batch in [made.clone(), made.baseline_only()] {
+                let mut out = vec![0.0; n];
+                batch.evaluate(few, &g.mol.xyz, &mut out).unwrap();
+                for (pp, j) in few.iter().zip(&out) {
+                    prop_assert_eq!(pp.evaluate_j(&g.mol.xyz).unwrap().to_bits(), j.to_bits());
+                }
+            }
         }
     }
 

@@ -454,7 +454,7 @@ impl WideDecimal {
     /// fraction, with every other byte of the zone a blank or the sign.
     ///
     /// # Safety
-    /// The CPU must have SSSE3 (a [`super::window::Wide`] proves it).
+    /// The CPU must have SSSE3 (a [`crate::isa::Wide`] proves it).
     /// (Not marked with the feature itself, so that it inlines into its
     /// caller, which is.)
     #[cfg(target_arch = "x86_64")]
@@ -670,7 +670,7 @@ mod tests {
             at in 1usize..40,
             room in 0usize..12,
         ) {
-            let Some(_wide) = super::super::window::Wide::detect() else {
+            let Some(_wide) = crate::isa::Wide::detect() else {
                 return Ok(());
             };
             let field = format!("{}{int}.{frac}", if neg { "-" } else { "" });

@@ -4,54 +4,6 @@
 //! time; SSE2 is part of the x86_64 baseline, so no run-time check is
 //! needed); elsewhere from a plain byte loop that gives the same masks.
 
-/// Which instructions the hot loops of the readers may use: [`Baseline`]
-/// (x86-64's SSE2, or portable code elsewhere) or [`Wide`]. A loop generic
-/// over `I: Isa` takes a value of `I`, so that its wide instance can only be
-/// reached with the proof that [`Wide::detect`] returns.
-pub(crate) trait Isa: Copy {
-    /// True for [`Wide`].
-    const WIDE: bool;
-}
-
-/// The instructions every target has.
-#[derive(Debug, Clone, Copy)]
-pub(crate) struct Baseline;
-
-impl Isa for Baseline {
-    const WIDE: bool = false;
-}
-
-/// Proof that this CPU has AVX2, SSSE3, POPCNT, LZCNT, BMI1 and BMI2 (the
-/// x86-64 machines of the last decade); made only by [`Wide::detect`].
-#[derive(Debug, Clone, Copy)]
-pub(crate) struct Wide(());
-
-impl Isa for Wide {
-    const WIDE: bool = true;
-}
-
-impl Wide {
-    /// `Some` when this CPU has the features (checked at run time, once per
-    /// reader).
-    pub(crate) fn detect() -> Option<Wide> {
-        #[cfg(target_arch = "x86_64")]
-        {
-            use std::arch::is_x86_feature_detected as has;
-            (has!("avx2")
-                && has!("ssse3")
-                && has!("popcnt")
-                && has!("lzcnt")
-                && has!("bmi1")
-                && has!("bmi2"))
-            .then_some(Wide(()))
-        }
-        #[cfg(not(target_arch = "x86_64"))]
-        {
-            None
-        }
-    }
-}
-
 /// The classes of the 64 bytes of a window, one bit per byte.
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
 pub(crate) struct Classes {
@@ -99,7 +51,7 @@ pub(crate) fn spaces_and_digits(w: &[u8; 64]) -> (u64, u64) {
 /// bytes at a time, for the wide line path.
 ///
 /// # Safety
-/// The CPU must have AVX2 (a [`Wide`] proves it).
+/// The CPU must have AVX2 (a [`crate::isa::Wide`] proves it).
 #[cfg(target_arch = "x86_64")]
 #[target_feature(enable = "avx2")]
 #[inline]
@@ -236,7 +188,7 @@ mod tests {
                     "byte {b:#04x} at {k}"
                 );
                 #[cfg(target_arch = "x86_64")]
-                if Wide::detect().is_some() {
+                if crate::isa::Wide::detect().is_some() {
                     // SAFETY: the CPU has AVX2, as `Wide::detect` checked.
                     let wide = unsafe { space_digit_minus_avx2(&w) };
                     assert_eq!(wide, (c.space, c.digit, c.minus), "byte {b:#04x} at {k}");

@@ -32,10 +32,11 @@ use super::number::{
     masked_decimal, number_prefix_len, parse_f64, parse_f64_field, plain_decimal_at,
     plain_decimal_before_newline, FixedDecimal, WideDecimal,
 };
-use super::window::{Baseline, Classes, Isa, Wide};
+use super::window::Classes;
 use super::{element_from_bytes, finish_names, Element, Frame, FrameReader, ReadOptions};
 use crate::error::{Error, Result};
 use crate::geometry::Vec3;
+use crate::isa::{Baseline, Isa, Wide};
 
 /// Streaming reader of multi-frame XYZ files.
 pub struct XyzReader {

@@ -2,20 +2,36 @@
 //! trajectories: the Haasnoot–de Leeuw–Altona pairs run in one flat loop
 //! (no call, no `Result` and no model dispatch per pair), the other models
 //! through [`PreparedPair::evaluate_j`].
+//!
+//! The HLA pairs are laid out once, in packs of four lanes (coefficients and
+//! substituents as lane arrays, atom indices checked against the coordinates
+//! once per frame), and each pack is evaluated in SIMD registers: four lanes
+//! per AVX register on CPUs that have it, two per SSE2 register otherwise,
+//! and pair by pair on other targets. Every lane does the IEEE operations of
+//! [`DihedralParts::new`] and [`hla_sum`] in their order, so each J has the
+//! bits of the pair-by-pair path; the tests compare them.
 
 use super::{hla_sum, HlaCoefficients, Kernel, PreparedPair, PreparedSub};
 use crate::error::Result;
 use crate::geometry::{DihedralParts, Vec3};
+use crate::isa::Wide;
+
+/// Lanes of a pack.
+const LANES: usize = 4;
 
 /// A list of pairs made ready for repeated evaluation; see the module docs.
 #[derive(Debug, Clone)]
 pub struct PairBatch {
     hla: Vec<HlaJob>,
     subs: Vec<PreparedSub>,
+    packs: Vec<Pack>,
+    slots: Vec<SubSlot>,
     other: Vec<usize>,
     /// Largest atom index any pair reads.
     max_index: usize,
     len: usize,
+    /// Set when this CPU runs the AVX instance of the pack loop.
+    wide: Option<Wide>,
 }
 
 #[derive(Debug, Clone)]
@@ -30,15 +46,46 @@ struct HlaJob {
     to: usize,
 }
 
+/// Four HLA pairs, one per lane. A pack of fewer pairs repeats its first
+/// pair in the empty lanes, which are computed and not stored.
+#[derive(Debug, Clone)]
+struct Pack {
+    /// H1, X, Y, H2 of each lane.
+    atoms: [[usize; LANES]; 4],
+    /// Where each lane's J goes in the caller's list; `None` for a repeat.
+    out: [Option<usize>; LANES],
+    /// P1 … P5 of each lane.
+    p: [[f64; LANES]; 5],
+    /// The pack's substituent slots: `slots[from..to]`.
+    from: usize,
+    to: usize,
+}
+
+/// The i-th substituent of each lane of a pack. A lane without one holds a
+/// dummy term (on X, Δχ = 0) that is computed and not added.
+#[derive(Debug, Clone)]
+struct SubSlot {
+    atom: [usize; LANES],
+    /// Lane masks (all bits set where true): on X, and not a dummy.
+    on_x: [f64; LANES],
+    live: [f64; LANES],
+    dchi: [f64; LANES],
+    cos_a: [f64; LANES],
+    sin_a: [f64; LANES],
+}
+
 impl PairBatch {
     /// A batch for `pairs`, evaluated in [`PairBatch::evaluate`] in this order.
     pub fn new(pairs: &[PreparedPair]) -> PairBatch {
         let mut batch = PairBatch {
             hla: Vec::new(),
             subs: Vec::new(),
+            packs: Vec::new(),
+            slots: Vec::new(),
             other: Vec::new(),
             max_index: 0,
             len: pairs.len(),
+            wide: Wide::detect(),
         };
         for (k, pair) in pairs.iter().enumerate() {
             batch.max_index = batch.max_index.max(pair.max_index);
@@ -57,7 +104,19 @@ impl PairBatch {
                 _ => batch.other.push(k),
             }
         }
+        for jobs in batch.hla.chunks(LANES) {
+            let pack = Pack::new(jobs, &batch.subs, &mut batch.slots);
+            batch.packs.push(pack);
+        }
         batch
+    }
+
+    /// The same batch, evaluated with the baseline instructions only (SSE2
+    /// on x86-64) whatever the CPU has: the bits are the same, so this is
+    /// for tests and timings that compare the two instances.
+    pub fn baseline_only(mut self) -> PairBatch {
+        self.wide = None;
+        self
     }
 
     /// 3J in Hz of every pair of `pairs` (the list the batch was made from)
@@ -68,20 +127,16 @@ impl PairBatch {
         if coords.len() <= self.max_index || pairs.len() != self.len || out.len() != self.len {
             return evaluate_each(pairs, coords, out);
         }
-        let mut ok = true;
         #[cfg(target_arch = "x86_64")]
-        let rest = {
-            let mut jobs = self.hla.chunks_exact(2);
-            for two in &mut jobs {
-                ok &= sse2::evaluate_two(&two[0], &two[1], &self.subs, coords, out);
-            }
-            jobs.remainder()
+        let ok = match self.wide {
+            // SAFETY: `wide` proves the CPU has AVX.
+            Some(_) => unsafe { lanes::packs_avx(&self.packs, &self.slots, coords, out) },
+            None => lanes::packs_sse2(&self.packs, &self.slots, coords, out),
         };
         #[cfg(not(target_arch = "x86_64"))]
-        let rest = &self.hla[..];
-        for job in rest {
-            ok &= evaluate_one(job, &self.subs, coords, out);
-        }
+        let ok = self.hla.iter().fold(true, |ok, job| {
+            ok & evaluate_one(job, &self.subs, coords, out)
+        });
         if !ok {
             // Some pair fails: find the first one in list order, as the
             // pair-by-pair loop would have.
@@ -94,7 +149,58 @@ impl PairBatch {
     }
 }
 
+impl Pack {
+    /// The pack of `jobs` (1 to 4), its substituent slots appended to `slots`.
+    fn new(jobs: &[HlaJob], subs: &[PreparedSub], slots: &mut Vec<SubSlot>) -> Pack {
+        let lane = |l: usize| &jobs[if l < jobs.len() { l } else { 0 }];
+        let from = slots.len();
+        let most = jobs.iter().map(|j| j.to - j.from).max().unwrap_or(0);
+        for i in 0..most {
+            let sub = |l: usize| {
+                let job = lane(l);
+                subs[job.from..job.to].get(i).copied()
+            };
+            let dummy = |l: usize| PreparedSub {
+                atom: lane(l).atoms[1],
+                on_x: true,
+                dchi: 0.0,
+                cos_a: 0.0,
+                sin_a: 0.0,
+            };
+            let s: [PreparedSub; LANES] =
+                std::array::from_fn(|l| sub(l).unwrap_or_else(|| dummy(l)));
+            slots.push(SubSlot {
+                atom: s.map(|s| s.atom),
+                on_x: s.map(|s| lane_mask(s.on_x)),
+                live: std::array::from_fn(|l| lane_mask(sub(l).is_some())),
+                dchi: s.map(|s| s.dchi),
+                cos_a: s.map(|s| s.cos_a),
+                sin_a: s.map(|s| s.sin_a),
+            });
+        }
+        Pack {
+            atoms: std::array::from_fn(|r| std::array::from_fn(|l| lane(l).atoms[r])),
+            out: std::array::from_fn(|l| jobs.get(l).map(|j| j.k)),
+            p: [
+                std::array::from_fn(|l| lane(l).p.p1),
+                std::array::from_fn(|l| lane(l).p.p2),
+                std::array::from_fn(|l| lane(l).p.p3),
+                std::array::from_fn(|l| lane(l).p.p4),
+                std::array::from_fn(|l| lane(l).p.p5),
+            ],
+            from,
+            to: slots.len(),
+        }
+    }
+}
+
+/// A lane mask: a double with all bits set for true, zero for false.
+fn lane_mask(b: bool) -> f64 {
+    f64::from_bits(if b { u64::MAX } else { 0 })
+}
+
 /// One HLA pair into `out[job.k]`; false when it cannot be evaluated.
+#[cfg_attr(target_arch = "x86_64", allow(dead_code))]
 #[inline(always)]
 fn evaluate_one(job: &HlaJob, subs: &[PreparedSub], coords: &[Vec3], out: &mut [f64]) -> bool {
     let [h1, x, y, h2] = job.atoms;
@@ -110,184 +216,371 @@ fn evaluate_one(job: &HlaJob, subs: &[PreparedSub], coords: &[Vec3], out: &mut [
     }
 }
 
-/// Two HLA pairs at once in the two lanes of SSE2 registers (x86_64
-/// baseline), so that the long chain of square roots and divisions of one
-/// pair runs beside the other's. Every lane does the IEEE operations of
-/// [`DihedralParts::new`] and [`hla_sum`] in their order (nalgebra's dot
-/// product is `(a.x b.x + a.y b.y) + a.z b.z`, its cross product the
-/// textbook one), so each J has the bits of the scalar path; the tests
-/// compare them.
+/// The pack loop over SIMD lanes of doubles: [`Lanes`] for SSE2 (two lanes,
+/// the x86-64 baseline) and AVX (four lanes). Each lane does the IEEE
+/// operations of [`DihedralParts::new`] and [`hla_sum`] in their order
+/// (nalgebra's dot product is `(a.x b.x + a.y b.y) + a.z b.z`, its cross
+/// product the textbook one), so each J has the bits of the scalar path.
 #[cfg(target_arch = "x86_64")]
-mod sse2 {
-    use super::{HlaJob, PreparedSub};
+mod lanes {
+    use super::{Pack, SubSlot, LANES};
     use crate::geometry::{Vec3, COLLINEAR_EPS};
-    use std::arch::x86_64::{
-        __m128d, _mm_add_pd, _mm_and_pd, _mm_andnot_pd, _mm_castsi128_pd, _mm_cmpeq_pd,
-        _mm_cmpgt_pd, _mm_cmple_pd, _mm_cmplt_pd, _mm_div_pd, _mm_movemask_pd, _mm_mul_pd,
-        _mm_or_pd, _mm_set1_pd, _mm_set_epi64x, _mm_set_pd, _mm_setzero_pd, _mm_sqrt_pd,
-        _mm_storeh_pd, _mm_storel_pd, _mm_sub_pd, _mm_xor_pd,
-    };
+    use std::arch::x86_64::*;
+
+    /// A vector of `N` doubles and the operations the pack loop needs. The
+    /// methods are `unsafe`: the AVX ones need a CPU with AVX, and every
+    /// one is inlined into a function compiled for its instructions.
+    pub(super) trait Lanes: Copy {
+        const N: usize;
+        unsafe fn splat(x: f64) -> Self;
+        /// `N` values from `p[0..N]`.
+        unsafe fn load(p: &[f64]) -> Self;
+        unsafe fn add(a: Self, b: Self) -> Self;
+        unsafe fn sub(a: Self, b: Self) -> Self;
+        unsafe fn mul(a: Self, b: Self) -> Self;
+        unsafe fn div(a: Self, b: Self) -> Self;
+        unsafe fn sqrt(a: Self) -> Self;
+        /// Lane masks (all ones where true).
+        unsafe fn eq(a: Self, b: Self) -> Self;
+        unsafe fn le(a: Self, b: Self) -> Self;
+        unsafe fn lt(a: Self, b: Self) -> Self;
+        unsafe fn gt(a: Self, b: Self) -> Self;
+        unsafe fn and(a: Self, b: Self) -> Self;
+        unsafe fn or(a: Self, b: Self) -> Self;
+        unsafe fn andnot(a: Self, b: Self) -> Self;
+        unsafe fn xor(a: Self, b: Self) -> Self;
+        /// Bit l set where lane l's sign bit is.
+        unsafe fn signs(a: Self) -> u32;
+        unsafe fn store(a: Self, p: &mut [f64]);
+    }
+
+    macro_rules! lanes_impl {
+        ($t:ty, $n:expr, $set1:ident, $loadu:ident, $storeu:ident, $add:ident, $sub:ident,
+         $mul:ident, $div:ident, $sqrt:ident, $cmpeq:ident, $cmple:ident, $cmplt:ident,
+         $cmpgt:ident, $and:ident, $or:ident, $andnot:ident, $xor:ident, $movemask:ident) => {
+            impl Lanes for $t {
+                const N: usize = $n;
+                #[inline(always)]
+                unsafe fn splat(x: f64) -> Self {
+                    unsafe { $set1(x) }
+                }
+                #[inline(always)]
+                unsafe fn load(p: &[f64]) -> Self {
+                    let p: &[f64; $n] = p[..$n].try_into().unwrap();
+                    // SAFETY: `p` holds N doubles, read unaligned.
+                    unsafe { $loadu(p.as_ptr()) }
+                }
+                #[inline(always)]
+                unsafe fn add(a: Self, b: Self) -> Self {
+                    unsafe { $add(a, b) }
+                }
+                #[inline(always)]
+                unsafe fn sub(a: Self, b: Self) -> Self {
+                    unsafe { $sub(a, b) }
+                }
+                #[inline(always)]
+                unsafe fn mul(a: Self, b: Self) -> Self {
+                    unsafe { $mul(a, b) }
+                }
+                #[inline(always)]
+                unsafe fn div(a: Self, b: Self) -> Self {
+                    unsafe { $div(a, b) }
+                }
+                #[inline(always)]
+                unsafe fn sqrt(a: Self) -> Self {
+                    unsafe { $sqrt(a) }
+                }
+                #[inline(always)]
+                unsafe fn eq(a: Self, b: Self) -> Self {
+                    unsafe { $cmpeq(a, b) }
+                }
+                #[inline(always)]
+                unsafe fn le(a: Self, b: Self) -> Self {
+                    unsafe { $cmple(a, b) }
+                }
+                #[inline(always)]
+                unsafe fn lt(a: Self, b: Self) -> Self {
+                    unsafe { $cmplt(a, b) }
+                }
+                #[inline(always)]
+                unsafe fn gt(a: Self, b: Self) -> Self {
+                    unsafe { $cmpgt(a, b) }
+                }
+                #[inline(always)]
+                unsafe fn and(a: Self, b: Self) -> Self {
+                    unsafe { $and(a, b) }
+                }
+                #[inline(always)]
+                unsafe fn or(a: Self, b: Self) -> Self {
+                    unsafe { $or(a, b) }
+                }
+                #[inline(always)]
+                unsafe fn andnot(a: Self, b: Self) -> Self {
+                    unsafe { $andnot(a, b) }
+                }
+                #[inline(always)]
+                unsafe fn xor(a: Self, b: Self) -> Self {
+                    unsafe { $xor(a, b) }
+                }
+                #[inline(always)]
+                unsafe fn signs(a: Self) -> u32 {
+                    unsafe { $movemask(a) as u32 }
+                }
+                #[inline(always)]
+                unsafe fn store(a: Self, p: &mut [f64]) {
+                    let p: &mut [f64; $n] = (&mut p[..$n]).try_into().unwrap();
+                    // SAFETY: `p` has room for N doubles, written unaligned.
+                    unsafe { $storeu(p.as_mut_ptr(), a) }
+                }
+            }
+        };
+    }
+
+    lanes_impl!(
+        __m128d,
+        2,
+        _mm_set1_pd,
+        _mm_loadu_pd,
+        _mm_storeu_pd,
+        _mm_add_pd,
+        _mm_sub_pd,
+        _mm_mul_pd,
+        _mm_div_pd,
+        _mm_sqrt_pd,
+        _mm_cmpeq_pd,
+        _mm_cmple_pd,
+        _mm_cmplt_pd,
+        _mm_cmpgt_pd,
+        _mm_and_pd,
+        _mm_or_pd,
+        _mm_andnot_pd,
+        _mm_xor_pd,
+        _mm_movemask_pd
+    );
+
+    // AVX compares take the predicate as a constant; these name them as the
+    // SSE2 ones (ordered, quiet: false for NaN, as the scalar comparisons).
+    #[inline(always)]
+    unsafe fn cmpeq256(a: __m256d, b: __m256d) -> __m256d {
+        unsafe { _mm256_cmp_pd::<_CMP_EQ_OQ>(a, b) }
+    }
+    #[inline(always)]
+    unsafe fn cmple256(a: __m256d, b: __m256d) -> __m256d {
+        unsafe { _mm256_cmp_pd::<_CMP_LE_OQ>(a, b) }
+    }
+    #[inline(always)]
+    unsafe fn cmplt256(a: __m256d, b: __m256d) -> __m256d {
+        unsafe { _mm256_cmp_pd::<_CMP_LT_OQ>(a, b) }
+    }
+    #[inline(always)]
+    unsafe fn cmpgt256(a: __m256d, b: __m256d) -> __m256d {
+        unsafe { _mm256_cmp_pd::<_CMP_GT_OQ>(a, b) }
+    }
+
+    lanes_impl!(
+        __m256d,
+        4,
+        _mm256_set1_pd,
+        _mm256_loadu_pd,
+        _mm256_storeu_pd,
+        _mm256_add_pd,
+        _mm256_sub_pd,
+        _mm256_mul_pd,
+        _mm256_div_pd,
+        _mm256_sqrt_pd,
+        cmpeq256,
+        cmple256,
+        cmplt256,
+        cmpgt256,
+        _mm256_and_pd,
+        _mm256_or_pd,
+        _mm256_andnot_pd,
+        _mm256_xor_pd,
+        _mm256_movemask_pd
+    );
+
+    /// Every pack, two lanes at a time in SSE2 registers.
+    pub(super) fn packs_sse2(
+        packs: &[Pack],
+        slots: &[SubSlot],
+        coords: &[Vec3],
+        out: &mut [f64],
+    ) -> bool {
+        let mut ok = true;
+        for pack in packs {
+            for half in [0, 2] {
+                // (A second half of repeats only is skipped.)
+                if pack.out[half].is_some() {
+                    // SAFETY: SSE2 is part of the x86_64 baseline.
+                    ok &= unsafe { pack_lanes::<__m128d>(pack, half, slots, coords, out) };
+                }
+            }
+        }
+        ok
+    }
+
+    /// Every pack, four lanes in AVX registers.
+    ///
+    /// # Safety
+    /// The CPU must have AVX (a [`crate::isa::Wide`] proves it).
+    #[target_feature(enable = "avx")]
+    pub(super) unsafe fn packs_avx(
+        packs: &[Pack],
+        slots: &[SubSlot],
+        coords: &[Vec3],
+        out: &mut [f64],
+    ) -> bool {
+        let mut ok = true;
+        for pack in packs {
+            // SAFETY: this function runs only where AVX is.
+            ok &= unsafe { pack_lanes::<__m256d>(pack, 0, slots, coords, out) };
+        }
+        ok
+    }
 
     #[derive(Clone, Copy)]
-    struct V3 {
-        x: __m128d,
-        y: __m128d,
-        z: __m128d,
+    struct V3<V> {
+        x: V,
+        y: V,
+        z: V,
     }
 
-    // SAFETY (every `unsafe` block here): SSE2 is part of the x86_64
-    // baseline, and the intrinsics used touch no memory but their operands
-    // (the two stores write into local variables).
+    // The helpers below are functions, not closures: closures do not take
+    // the target features of the function they are inlined into, and the
+    // AVX intrinsics must be.
 
-    /// Lane 0 from `a`, lane 1 from `b`.
+    /// Lanes `first..first + N` of `v`.
     #[inline(always)]
-    fn pair(a: f64, b: f64) -> __m128d {
-        unsafe { _mm_set_pd(b, a) }
+    unsafe fn lanes<V: Lanes>(v: &[f64; LANES], first: usize) -> V {
+        unsafe { V::load(&v[first..first + V::N]) }
     }
 
+    /// The positions of `atoms[first..first + N]`.
     #[inline(always)]
-    fn v3(a: &Vec3, b: &Vec3) -> V3 {
-        V3 {
-            x: pair(a.x, b.x),
-            y: pair(a.y, b.y),
-            z: pair(a.z, b.z),
+    unsafe fn at<V: Lanes>(coords: &[Vec3], atoms: &[usize; LANES], first: usize) -> V3<V> {
+        let mut v = [[0.0f64; LANES]; 3];
+        for l in 0..V::N {
+            let c = &coords[atoms[first + l]];
+            (v[0][l], v[1][l], v[2][l]) = (c.x, c.y, c.z);
         }
-    }
-
-    #[inline(always)]
-    fn sub(a: V3, b: V3) -> V3 {
         unsafe {
             V3 {
-                x: _mm_sub_pd(a.x, b.x),
-                y: _mm_sub_pd(a.y, b.y),
-                z: _mm_sub_pd(a.z, b.z),
+                x: lanes(&v[0], 0),
+                y: lanes(&v[1], 0),
+                z: lanes(&v[2], 0),
             }
         }
     }
 
     #[inline(always)]
-    fn cross(a: V3, b: V3) -> V3 {
+    unsafe fn sub<V: Lanes>(a: V3<V>, b: V3<V>) -> V3<V> {
         unsafe {
             V3 {
-                x: _mm_sub_pd(_mm_mul_pd(a.y, b.z), _mm_mul_pd(a.z, b.y)),
-                y: _mm_sub_pd(_mm_mul_pd(a.z, b.x), _mm_mul_pd(a.x, b.z)),
-                z: _mm_sub_pd(_mm_mul_pd(a.x, b.y), _mm_mul_pd(a.y, b.x)),
+                x: V::sub(a.x, b.x),
+                y: V::sub(a.y, b.y),
+                z: V::sub(a.z, b.z),
             }
         }
     }
 
     #[inline(always)]
-    fn dot(a: V3, b: V3) -> __m128d {
+    unsafe fn cross<V: Lanes>(a: V3<V>, b: V3<V>) -> V3<V> {
         unsafe {
-            _mm_add_pd(
-                _mm_add_pd(_mm_mul_pd(a.x, b.x), _mm_mul_pd(a.y, b.y)),
-                _mm_mul_pd(a.z, b.z),
-            )
+            V3 {
+                x: V::sub(V::mul(a.y, b.z), V::mul(a.z, b.y)),
+                y: V::sub(V::mul(a.z, b.x), V::mul(a.x, b.z)),
+                z: V::sub(V::mul(a.x, b.y), V::mul(a.y, b.x)),
+            }
         }
+    }
+
+    #[inline(always)]
+    unsafe fn dot<V: Lanes>(a: V3<V>, b: V3<V>) -> V {
+        unsafe { V::add(V::add(V::mul(a.x, b.x), V::mul(a.y, b.y)), V::mul(a.z, b.z)) }
     }
 
     /// `m ? a : b` per lane (`m` all ones or all zeros).
     #[inline(always)]
-    fn select(m: __m128d, a: __m128d, b: __m128d) -> __m128d {
-        unsafe { _mm_or_pd(_mm_and_pd(m, a), _mm_andnot_pd(m, b)) }
+    unsafe fn select<V: Lanes>(m: V, a: V, b: V) -> V {
+        unsafe { V::or(V::and(m, a), V::andnot(m, b)) }
     }
 
+    /// Lanes `first..first + V::N` of `pack` into `out`; false when one of
+    /// them cannot be evaluated (its value is then not to be used). The
+    /// caller has checked that `coords` covers every atom of the batch.
+    ///
+    /// # Safety
+    /// The CPU must have the instructions of `V`.
     #[inline(always)]
-    fn mask(a: bool, b: bool) -> __m128d {
-        unsafe { _mm_castsi128_pd(_mm_set_epi64x(-i64::from(b), -i64::from(a))) }
-    }
-
-    /// The pairs `a` and `b` into `out[a.k]` and `out[b.k]`; false when
-    /// either cannot be evaluated (its value is then not to be used).
-    #[inline(always)]
-    pub(super) fn evaluate_two(
-        a: &HlaJob,
-        b: &HlaJob,
-        subs: &[PreparedSub],
+    unsafe fn pack_lanes<V: Lanes>(
+        pack: &Pack,
+        first: usize,
+        slots: &[SubSlot],
         coords: &[Vec3],
         out: &mut [f64],
     ) -> bool {
-        let at = |ja: usize, jb: usize| v3(&coords[ja], &coords[jb]);
-        let h1 = at(a.atoms[0], b.atoms[0]);
-        let x = at(a.atoms[1], b.atoms[1]);
-        let y = at(a.atoms[2], b.atoms[2]);
-        let h2 = at(a.atoms[3], b.atoms[3]);
-        let (sa, sb) = (&subs[a.from..a.to], &subs[b.from..b.to]);
         unsafe {
             // DihedralParts::new, lane by lane.
+            let h1 = at::<V>(coords, &pack.atoms[0], first);
+            let x = at::<V>(coords, &pack.atoms[1], first);
+            let y = at::<V>(coords, &pack.atoms[2], first);
+            let h2 = at::<V>(coords, &pack.atoms[3], first);
             let b1 = sub(x, h1);
             let b2 = sub(y, x);
             let b3 = sub(h2, y);
             let n1 = cross(b1, b2);
             let n2 = cross(b2, b3);
             let b2n2 = dot(b2, b2);
-            let eps = _mm_set1_pd(COLLINEAR_EPS);
-            let zero = _mm_setzero_pd();
-            let bad = _mm_or_pd(
-                _mm_cmpeq_pd(b2n2, zero),
-                _mm_or_pd(
-                    _mm_cmple_pd(dot(n1, n1), _mm_mul_pd(_mm_mul_pd(eps, dot(b1, b1)), b2n2)),
-                    _mm_cmple_pd(dot(n2, n2), _mm_mul_pd(_mm_mul_pd(eps, dot(b3, b3)), b2n2)),
+            let eps = V::splat(COLLINEAR_EPS);
+            let zero = V::splat(0.0);
+            let bad = V::or(
+                V::eq(b2n2, zero),
+                V::or(
+                    V::le(dot(n1, n1), V::mul(V::mul(eps, dot(b1, b1)), b2n2)),
+                    V::le(dot(n2, n2), V::mul(V::mul(eps, dot(b3, b3)), b2n2)),
                 ),
             );
-            let yy = _mm_mul_pd(dot(b1, n2), _mm_sqrt_pd(b2n2));
+            let yy = V::mul(dot(b1, n2), V::sqrt(b2n2));
             let xx = dot(n1, n2);
-            let r = _mm_sqrt_pd(_mm_add_pd(_mm_mul_pd(xx, xx), _mm_mul_pd(yy, yy)));
+            let r = V::sqrt(V::add(V::mul(xx, xx), V::mul(yy, yy)));
             // r > 0 and finite (r < ∞ is false for NaN too).
-            let good_r = _mm_and_pd(
-                _mm_cmpgt_pd(r, zero),
-                _mm_cmplt_pd(r, _mm_set1_pd(f64::INFINITY)),
-            );
-            if _mm_movemask_pd(bad) != 0 || _mm_movemask_pd(good_r) != 3 {
+            let good_r = V::and(V::gt(r, zero), V::lt(r, V::splat(f64::INFINITY)));
+            let all = (1u32 << V::N) - 1;
+            if V::signs(bad) != 0 || V::signs(good_r) != all {
                 return false;
             }
             // hla_sum, lane by lane.
-            let c = _mm_div_pd(xx, r);
-            let sin_phi = _mm_div_pd(yy, r);
-            let p = |f: fn(&HlaJob) -> f64| pair(f(a), f(b));
-            let mut j = _mm_add_pd(
-                _mm_add_pd(
-                    _mm_mul_pd(_mm_mul_pd(p(|q| q.p.p1), c), c),
-                    _mm_mul_pd(p(|q| q.p.p2), c),
-                ),
-                p(|q| q.p.p3),
-            );
-            let (p4, p5) = (p(|q| q.p.p4), p(|q| q.p.p5));
-            let minus_zero = _mm_set1_pd(-0.0);
-            let (one, minus_one) = (_mm_set1_pd(1.0), _mm_set1_pd(-1.0));
-            // A lane without an i-th substituent computes a dummy term and
-            // keeps its sum.
-            let dummy = |q: &HlaJob| PreparedSub {
-                atom: q.atoms[1],
-                on_x: true,
-                dchi: 0.0,
-                cos_a: 0.0,
-                sin_a: 0.0,
-            };
-            for i in 0..sa.len().max(sb.len()) {
-                let ua = sa.get(i).copied().unwrap_or_else(|| dummy(a));
-                let ub = sb.get(i).copied().unwrap_or_else(|| dummy(b));
-                let sp = at(ua.atom, ub.atom);
+            let c = V::div(xx, r);
+            let sin_phi = V::div(yy, r);
+            let [p1, p2, p3, p4, p5] = &pack.p;
+            let (p1, p2, p3) = (lanes::<V>(p1, first), lanes(p2, first), lanes(p3, first));
+            let (p4, p5) = (lanes::<V>(p4, first), lanes::<V>(p5, first));
+            let mut j = V::add(V::add(V::mul(V::mul(p1, c), c), V::mul(p2, c)), p3);
+            let minus_zero = V::splat(-0.0);
+            let (one, minus_one) = (V::splat(1.0), V::splat(-1.0));
+            for s in &slots[pack.from..pack.to] {
+                let sp = at::<V>(coords, &s.atom, first);
                 let tx = dot(sub(sp, x), n1);
-                let ty = _mm_xor_pd(dot(sub(sp, y), n2), minus_zero);
-                let t = select(mask(ua.on_x, ub.on_x), tx, ty);
-                let xi = select(_mm_cmplt_pd(t, zero), minus_one, one);
-                let u = _mm_sub_pd(
-                    _mm_mul_pd(c, pair(ua.cos_a, ub.cos_a)),
-                    _mm_mul_pd(_mm_mul_pd(xi, sin_phi), pair(ua.sin_a, ub.sin_a)),
+                let ty = V::xor(dot(sub(sp, y), n2), minus_zero);
+                let t = select(lanes(&s.on_x, first), tx, ty);
+                let xi = select(V::lt(t, zero), minus_one, one);
+                let u = V::sub(
+                    V::mul(c, lanes(&s.cos_a, first)),
+                    V::mul(V::mul(xi, sin_phi), lanes(&s.sin_a, first)),
                 );
-                let term = _mm_mul_pd(
-                    pair(ua.dchi, ub.dchi),
-                    _mm_add_pd(p4, _mm_mul_pd(_mm_mul_pd(p5, u), u)),
-                );
-                j = select(mask(i < sa.len(), i < sb.len()), _mm_add_pd(j, term), j);
+                let term = V::mul(lanes(&s.dchi, first), V::add(p4, V::mul(V::mul(p5, u), u)));
+                j = select(lanes(&s.live, first), V::add(j, term), j);
             }
-            let (mut ja, mut jb) = (0.0, 0.0);
-            _mm_storel_pd(&mut ja, j);
-            _mm_storeh_pd(&mut jb, j);
-            out[a.k] = ja;
-            out[b.k] = jb;
-            ja.is_finite() && jb.is_finite()
+            let mut js = [0.0f64; LANES];
+            V::store(j, &mut js);
+            let mut ok = true;
+            for (l, &j) in js.iter().enumerate().take(V::N) {
+                if let Some(k) = pack.out[first + l] {
+                    out[k] = j;
+                    ok &= j.is_finite();
+                }
+            }
+            ok
         }
     }
 }
