@@ -11,6 +11,7 @@
 //! flag goes to the exact checks, which decide and name the atoms.
 
 use crate::geometry::Vec3;
+use crate::isa::Wide;
 
 /// Margin (Å) by which the screen widens every alarm distance and narrows
 /// every bond cutoff.
@@ -21,8 +22,9 @@ pub(crate) const MARGIN_A: f64 = 0.02;
 /// matter is off by less than 0.002 Å, a tenth of [`MARGIN_A`].
 pub(crate) const MAX_COORD_A: f64 = 1.0e4;
 
-/// Lanes of the pair loop; rows of the pair table are padded to a multiple.
-const LANES: usize = 4;
+/// Lanes of the pair loop (one AVX register of `f32`, or two SSE ones);
+/// rows of the pair table are padded to a multiple.
+const LANES: usize = 8;
 
 /// The pair table and scratch of the screen for one molecule.
 #[derive(Debug, Clone)]
@@ -40,6 +42,8 @@ pub(crate) struct PairScreen {
     xs: Vec<f32>,
     ys: Vec<f32>,
     zs: Vec<f32>,
+    /// Set when this CPU runs the AVX loop.
+    wide: Option<Wide>,
 }
 
 impl PairScreen {
@@ -80,6 +84,7 @@ impl PairScreen {
             xs: pad.clone(),
             ys: pad.clone(),
             zs: pad,
+            wide: Wide::detect(),
         };
         // The shape the unchecked SSE loads rely on.
         assert!(screen.rows.iter().enumerate().all(|(i, &(start, len))| {
@@ -112,8 +117,10 @@ impl PairScreen {
             return false;
         }
         #[cfg(target_arch = "x86_64")]
-        {
-            !self.any_row_flagged_sse()
+        match self.wide {
+            // SAFETY: `wide` proves the CPU has AVX.
+            Some(_) => !unsafe { self.any_row_flagged_avx() },
+            None => !self.any_row_flagged_sse(),
         }
         #[cfg(not(target_arch = "x86_64"))]
         {
@@ -147,8 +154,9 @@ impl PairScreen {
         let (lo2, hi2) = (self.lo2.as_ptr(), self.hi2.as_ptr());
         // SAFETY: SSE is part of the x86_64 baseline; every load reads four
         // f32 inside the arrays: `new` asserted that each row lies inside
-        // them with a length that is a multiple of four, and no other code
-        // changes the rows or the arrays' lengths (j + 4 <= len).
+        // them with a length that is a multiple of LANES (so of four), and
+        // no other code changes the rows or the arrays' lengths
+        // (j + 4 <= len).
         unsafe {
             let mut any = _mm_setzero_ps();
             for (i, &(start, len)) in self.rows.iter().enumerate() {
@@ -171,11 +179,60 @@ impl PairScreen {
                     let l = _mm_cmplt_ps(d2, _mm_loadu_ps(lo.add(j)));
                     let h = _mm_cmpgt_ps(d2, _mm_loadu_ps(hi.add(j)));
                     any = _mm_or_ps(any, _mm_or_ps(l, h));
-                    j += LANES;
+                    j += 4;
                 }
             }
             _mm_movemask_ps(any) != 0
         }
+    }
+}
+
+#[cfg(target_arch = "x86_64")]
+impl PairScreen {
+    /// [`PairScreen::any_row_flagged_sse`] eight pairs per AVX compare.
+    ///
+    /// # Safety
+    /// The CPU must have AVX (a [`Wide`] proves it).
+    #[target_feature(enable = "avx")]
+    unsafe fn any_row_flagged_avx(&self) -> bool {
+        use std::arch::x86_64::{
+            _mm256_add_ps, _mm256_cmp_ps, _mm256_loadu_ps, _mm256_movemask_ps, _mm256_mul_ps,
+            _mm256_or_ps, _mm256_set1_ps, _mm256_setzero_ps, _mm256_sub_ps, _CMP_GT_OQ, _CMP_LT_OQ,
+        };
+        let (xs, ys, zs) = (self.xs.as_ptr(), self.ys.as_ptr(), self.zs.as_ptr());
+        let (lo2, hi2) = (self.lo2.as_ptr(), self.hi2.as_ptr());
+        let mut any = _mm256_setzero_ps();
+        // SAFETY: every load reads eight f32 inside the arrays: `new`
+        // asserted that each row lies inside them with a length that is a
+        // multiple of LANES (eight), and no other code changes the rows or
+        // the arrays' lengths (j + 8 <= len).
+        unsafe {
+            for (i, &(start, len)) in self.rows.iter().enumerate() {
+                let (xi, yi, zi) = (
+                    _mm256_set1_ps(*xs.add(i)),
+                    _mm256_set1_ps(*ys.add(i)),
+                    _mm256_set1_ps(*zs.add(i)),
+                );
+                let (xj, yj, zj) = (xs.add(i + 1), ys.add(i + 1), zs.add(i + 1));
+                let (lo, hi) = (lo2.add(start), hi2.add(start));
+                let mut j = 0;
+                while j < len {
+                    let dx = _mm256_sub_ps(_mm256_loadu_ps(xj.add(j)), xi);
+                    let dy = _mm256_sub_ps(_mm256_loadu_ps(yj.add(j)), yi);
+                    let dz = _mm256_sub_ps(_mm256_loadu_ps(zj.add(j)), zi);
+                    let d2 = _mm256_add_ps(
+                        _mm256_add_ps(_mm256_mul_ps(dx, dx), _mm256_mul_ps(dy, dy)),
+                        _mm256_mul_ps(dz, dz),
+                    );
+                    // Ordered compares: false for NaN, as the SSE ones.
+                    let l = _mm256_cmp_ps::<_CMP_LT_OQ>(d2, _mm256_loadu_ps(lo.add(j)));
+                    let h = _mm256_cmp_ps::<_CMP_GT_OQ>(d2, _mm256_loadu_ps(hi.add(j)));
+                    any = _mm256_or_ps(any, _mm256_or_ps(l, h));
+                    j += LANES;
+                }
+            }
+        }
+        _mm256_movemask_ps(any) != 0
     }
 }
 
@@ -247,8 +304,8 @@ mod tests {
 
     #[cfg(target_arch = "x86_64")]
     proptest::proptest! {
-        /// The SSE loop over all rows flags a frame exactly when some row's
-        /// scalar test does.
+        /// The SSE and AVX loops over all rows flag a frame exactly when
+        /// some row's scalar test does.
         #[test]
         fn sse_rows_flag_as_scalar_rows(
             pts in proptest::collection::vec(proptest::array::uniform3(-3.0..3.0f64), 2..12),
@@ -257,9 +314,13 @@ mod tests {
             let n = pts.len();
             let mut s = PairScreen::new(n, |i, j| alarm * (1.0 + 0.1 * ((i * 7 + j) % 5) as f64), |i, j| (j == i + 1).then_some(3.5));
             let c: Vec<Vec3> = pts.iter().map(|p| v(p[0], p[1], p[2])).collect();
-            let sse = !s.clear(&c);
+            // The loop as made (AVX where the CPU has it), and the SSE one;
+            // `clear` fills the coordinates the scalar rows read.
+            let made = !s.clear(&c);
             let scalar = s.rows().any(|row| row.flagged_scalar());
-            proptest::prop_assert_eq!(sse, scalar);
+            proptest::prop_assert_eq!(made, scalar);
+            s.wide = None;
+            proptest::prop_assert_eq!(!s.clear(&c), scalar);
         }
     }
 
