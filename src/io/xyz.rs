@@ -44,15 +44,7 @@ pub struct XyzReader {
     path: PathBuf,
     key: Option<Vec<u8>>,
     frames: usize,
-    /// The layout of the last atom line read by [`masked_atom_line`].
-    layout: Option<Layout>,
-    /// Whether layouts are learned and tried: off for files whose lines
-    /// change columns (free format), where the attempts would only cost.
-    layout_on: bool,
-    /// Atom lines of this frame that the layout did not read.
-    layout_misses: u32,
-    /// Frames read with layouts off.
-    layout_off_frames: u32,
+    layouts: Layouts,
     /// Set when this CPU runs [`fast_run_wide`].
     wide: Option<Wide>,
 }
@@ -68,10 +60,12 @@ impl XyzReader {
             path,
             key: opts.energy_key.map(|k| k.trim().as_bytes().to_vec()),
             frames: 0,
-            layout: None,
-            layout_on: true,
-            layout_misses: 0,
-            layout_off_frames: 0,
+            layouts: Layouts {
+                current: None,
+                on: true,
+                misses: 0,
+                off_frames: 0,
+            },
             wide: Wide::detect(),
         }
     }
@@ -123,23 +117,38 @@ fn next_field<'a>(line: &'a [u8], i: &mut usize) -> &'a [u8] {
     &line[start..j]
 }
 
-impl XyzReader {
+/// The fixed-column layouts of a reader: the one learned last, and whether
+/// layouts are worth trying on this file.
+#[derive(Debug)]
+struct Layouts {
+    /// The layout of the last atom line read by [`masked_atom_line`].
+    current: Option<Layout>,
+    /// Whether layouts are learned and tried: off for files whose lines
+    /// change columns (free format), where the attempts would only cost.
+    on: bool,
+    /// Atom lines of this frame that the layout did not read.
+    misses: u32,
+    /// Frames read with layouts off.
+    off_frames: u32,
+}
+
+impl Layouts {
     /// At the end of a frame of `atoms` atoms: layouts stay on while they
     /// read most atom lines, and are probed again now and then once off.
-    fn review_layout(&mut self, atoms: usize) {
-        if self.layout_on {
-            if 2 * self.layout_misses as usize > atoms {
-                self.layout_on = false;
-                self.layout = None;
-                self.layout_off_frames = 0;
+    fn review(&mut self, atoms: usize) {
+        if self.on {
+            if 2 * self.misses as usize > atoms {
+                self.on = false;
+                self.current = None;
+                self.off_frames = 0;
             }
         } else {
-            self.layout_off_frames += 1;
-            if self.layout_off_frames >= LAYOUT_PROBE_FRAMES {
-                self.layout_on = true;
+            self.off_frames += 1;
+            if self.off_frames >= LAYOUT_PROBE_FRAMES {
+                self.on = true;
             }
         }
-        self.layout_misses = 0;
+        self.misses = 0;
     }
 }
 
@@ -217,17 +226,14 @@ impl FrameReader for XyzReader {
         let mut k = 0;
         while k < n {
             // As many lines as the in-place paths take, counted at once.
-            let (buf, layout) = (self.lines.rest(), &mut self.layout);
-            let (on, misses) = (self.layout_on, &mut self.layout_misses);
+            let (buf, layouts) = (self.lines.rest(), &mut self.layouts);
             let (elements, coords) = (&mut frame.elements[k..], &mut frame.coords[k..]);
             let run = match self.wide {
                 // SAFETY: `wide` proves the CPU has the features that
                 // `fast_run_wide` is compiled for.
                 #[cfg(target_arch = "x86_64")]
-                Some(wide) => unsafe {
-                    fast_run_wide(wide, buf, layout, on, misses, elements, coords)
-                },
-                _ => fast_run(Baseline, buf, layout, on, misses, elements, coords),
+                Some(wide) => unsafe { fast_run_wide(wide, buf, layouts, elements, coords) },
+                _ => fast_run(Baseline, buf, layouts, elements, coords),
             };
             if run.lines > 0 {
                 self.lines.consume_run(run.bytes, run.lines, run.last);
@@ -285,7 +291,7 @@ impl FrameReader for XyzReader {
         frame.charges.resize(n, 0);
         finish_names(&mut frame.names, 0, n);
         self.frames += 1;
-        self.review_layout(n);
+        self.layouts.review(n);
         Ok(true)
     }
 }
@@ -307,9 +313,7 @@ struct Run {
 fn fast_run<I: Isa>(
     isa: I,
     buf: &[u8],
-    layout: &mut Option<Layout>,
-    layout_on: bool,
-    misses: &mut u32,
+    layouts: &mut Layouts,
     elements: &mut [Element],
     coords: &mut [Vec3],
 ) -> Run {
@@ -321,13 +325,13 @@ fn fast_run<I: Isa>(
     };
     while run.lines < max {
         let rest = buf.get(run.bytes..).unwrap_or_default();
-        let fixed = match (layout.as_ref(), rest.first_chunk::<72>()) {
+        let fixed = match (layouts.current.as_ref(), rest.first_chunk::<72>()) {
             (Some(l), Some(w)) => l.read(isa, w),
             _ => None,
         };
         let atom = match fixed {
             Some(a) => Some(a),
-            None => masked_or_plain(rest, layout, layout_on, misses),
+            None => masked_or_plain(rest, layouts),
         };
         let Some((el, xyz, len)) = atom else {
             break;
@@ -345,18 +349,13 @@ fn fast_run<I: Isa>(
 /// its layout when layouts are on) or else [`plain_atom_line`]: the lines
 /// the learned layout did not read.
 #[inline(never)]
-fn masked_or_plain(
-    rest: &[u8],
-    layout: &mut Option<Layout>,
-    layout_on: bool,
-    misses: &mut u32,
-) -> Option<(Element, Vec3, usize)> {
+fn masked_or_plain(rest: &[u8], layouts: &mut Layouts) -> Option<(Element, Vec3, usize)> {
     if let Some(window) = rest.first_chunk::<64>() {
         let c = super::window::classify(window);
-        *misses += 1;
+        layouts.misses += 1;
         if let Some(a) = masked_atom_line(rest, &c) {
-            if layout_on {
-                *layout = Layout::learn(&c, a.2 as u32 - 1);
+            if layouts.on {
+                layouts.current = Layout::learn(&c, a.2 as u32 - 1);
             }
             return Some(a);
         }
@@ -372,13 +371,11 @@ fn masked_or_plain(
 fn fast_run_wide(
     isa: Wide,
     buf: &[u8],
-    layout: &mut Option<Layout>,
-    layout_on: bool,
-    misses: &mut u32,
+    layouts: &mut Layouts,
     elements: &mut [Element],
     coords: &mut [Vec3],
 ) -> Run {
-    fast_run(isa, buf, layout, layout_on, misses, elements, coords)
+    fast_run(isa, buf, layouts, elements, coords)
 }
 
 /// The column layout of a fixed-format atom line, learned from one line and

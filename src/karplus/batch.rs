@@ -225,182 +225,20 @@ fn evaluate_one(job: &HlaJob, subs: &[PreparedSub], coords: &[Vec3], out: &mut [
 mod lanes {
     use super::{Pack, SubSlot, LANES};
     use crate::geometry::{Vec3, COLLINEAR_EPS};
-    use std::arch::x86_64::*;
+    use crate::isa::Lanes as SimdLanes;
+    use std::arch::x86_64::{__m128d, __m256d};
 
-    /// A vector of `N` doubles and the operations the pack loop needs. The
-    /// methods are `unsafe`: the AVX ones need a CPU with AVX, and every
-    /// one is inlined into a function compiled for its instructions.
-    pub(super) trait Lanes: Copy {
-        const N: usize;
-        unsafe fn splat(x: f64) -> Self;
-        /// `N` values from `p[0..N]`.
-        unsafe fn load(p: &[f64]) -> Self;
-        unsafe fn add(a: Self, b: Self) -> Self;
-        unsafe fn sub(a: Self, b: Self) -> Self;
-        unsafe fn mul(a: Self, b: Self) -> Self;
-        unsafe fn div(a: Self, b: Self) -> Self;
-        unsafe fn sqrt(a: Self) -> Self;
-        /// Lane masks (all ones where true).
-        unsafe fn eq(a: Self, b: Self) -> Self;
-        unsafe fn le(a: Self, b: Self) -> Self;
-        unsafe fn lt(a: Self, b: Self) -> Self;
-        unsafe fn gt(a: Self, b: Self) -> Self;
-        unsafe fn and(a: Self, b: Self) -> Self;
-        unsafe fn or(a: Self, b: Self) -> Self;
-        unsafe fn andnot(a: Self, b: Self) -> Self;
-        unsafe fn xor(a: Self, b: Self) -> Self;
-        /// Bit l set where lane l's sign bit is.
-        unsafe fn signs(a: Self) -> u32;
-        unsafe fn store(a: Self, p: &mut [f64]);
-    }
+    /// The lane vectors of doubles the pack loop runs on.
+    pub(super) trait Lanes: SimdLanes<Elem = f64> {}
+    impl<V: SimdLanes<Elem = f64>> Lanes for V {}
 
-    macro_rules! lanes_impl {
-        ($t:ty, $n:expr, $set1:ident, $loadu:ident, $storeu:ident, $add:ident, $sub:ident,
-         $mul:ident, $div:ident, $sqrt:ident, $cmpeq:ident, $cmple:ident, $cmplt:ident,
-         $cmpgt:ident, $and:ident, $or:ident, $andnot:ident, $xor:ident, $movemask:ident) => {
-            impl Lanes for $t {
-                const N: usize = $n;
-                #[inline(always)]
-                unsafe fn splat(x: f64) -> Self {
-                    unsafe { $set1(x) }
-                }
-                #[inline(always)]
-                unsafe fn load(p: &[f64]) -> Self {
-                    let p: &[f64; $n] = p[..$n].try_into().unwrap();
-                    // SAFETY: `p` holds N doubles, read unaligned.
-                    unsafe { $loadu(p.as_ptr()) }
-                }
-                #[inline(always)]
-                unsafe fn add(a: Self, b: Self) -> Self {
-                    unsafe { $add(a, b) }
-                }
-                #[inline(always)]
-                unsafe fn sub(a: Self, b: Self) -> Self {
-                    unsafe { $sub(a, b) }
-                }
-                #[inline(always)]
-                unsafe fn mul(a: Self, b: Self) -> Self {
-                    unsafe { $mul(a, b) }
-                }
-                #[inline(always)]
-                unsafe fn div(a: Self, b: Self) -> Self {
-                    unsafe { $div(a, b) }
-                }
-                #[inline(always)]
-                unsafe fn sqrt(a: Self) -> Self {
-                    unsafe { $sqrt(a) }
-                }
-                #[inline(always)]
-                unsafe fn eq(a: Self, b: Self) -> Self {
-                    unsafe { $cmpeq(a, b) }
-                }
-                #[inline(always)]
-                unsafe fn le(a: Self, b: Self) -> Self {
-                    unsafe { $cmple(a, b) }
-                }
-                #[inline(always)]
-                unsafe fn lt(a: Self, b: Self) -> Self {
-                    unsafe { $cmplt(a, b) }
-                }
-                #[inline(always)]
-                unsafe fn gt(a: Self, b: Self) -> Self {
-                    unsafe { $cmpgt(a, b) }
-                }
-                #[inline(always)]
-                unsafe fn and(a: Self, b: Self) -> Self {
-                    unsafe { $and(a, b) }
-                }
-                #[inline(always)]
-                unsafe fn or(a: Self, b: Self) -> Self {
-                    unsafe { $or(a, b) }
-                }
-                #[inline(always)]
-                unsafe fn andnot(a: Self, b: Self) -> Self {
-                    unsafe { $andnot(a, b) }
-                }
-                #[inline(always)]
-                unsafe fn xor(a: Self, b: Self) -> Self {
-                    unsafe { $xor(a, b) }
-                }
-                #[inline(always)]
-                unsafe fn signs(a: Self) -> u32 {
-                    unsafe { $movemask(a) as u32 }
-                }
-                #[inline(always)]
-                unsafe fn store(a: Self, p: &mut [f64]) {
-                    let p: &mut [f64; $n] = (&mut p[..$n]).try_into().unwrap();
-                    // SAFETY: `p` has room for N doubles, written unaligned.
-                    unsafe { $storeu(p.as_mut_ptr(), a) }
-                }
-            }
-        };
-    }
-
-    lanes_impl!(
-        __m128d,
-        2,
-        _mm_set1_pd,
-        _mm_loadu_pd,
-        _mm_storeu_pd,
-        _mm_add_pd,
-        _mm_sub_pd,
-        _mm_mul_pd,
-        _mm_div_pd,
-        _mm_sqrt_pd,
-        _mm_cmpeq_pd,
-        _mm_cmple_pd,
-        _mm_cmplt_pd,
-        _mm_cmpgt_pd,
-        _mm_and_pd,
-        _mm_or_pd,
-        _mm_andnot_pd,
-        _mm_xor_pd,
-        _mm_movemask_pd
-    );
-
-    // AVX compares take the predicate as a constant; these name them as the
-    // SSE2 ones (ordered, quiet: false for NaN, as the scalar comparisons).
+    /// Every pack, `V::N` lanes at a time; false when some pair cannot be
+    /// evaluated. Lanes that hold only repeats are skipped.
+    ///
+    /// # Safety
+    /// The CPU must have the instructions of `V`.
     #[inline(always)]
-    unsafe fn cmpeq256(a: __m256d, b: __m256d) -> __m256d {
-        unsafe { _mm256_cmp_pd::<_CMP_EQ_OQ>(a, b) }
-    }
-    #[inline(always)]
-    unsafe fn cmple256(a: __m256d, b: __m256d) -> __m256d {
-        unsafe { _mm256_cmp_pd::<_CMP_LE_OQ>(a, b) }
-    }
-    #[inline(always)]
-    unsafe fn cmplt256(a: __m256d, b: __m256d) -> __m256d {
-        unsafe { _mm256_cmp_pd::<_CMP_LT_OQ>(a, b) }
-    }
-    #[inline(always)]
-    unsafe fn cmpgt256(a: __m256d, b: __m256d) -> __m256d {
-        unsafe { _mm256_cmp_pd::<_CMP_GT_OQ>(a, b) }
-    }
-
-    lanes_impl!(
-        __m256d,
-        4,
-        _mm256_set1_pd,
-        _mm256_loadu_pd,
-        _mm256_storeu_pd,
-        _mm256_add_pd,
-        _mm256_sub_pd,
-        _mm256_mul_pd,
-        _mm256_div_pd,
-        _mm256_sqrt_pd,
-        cmpeq256,
-        cmple256,
-        cmplt256,
-        cmpgt256,
-        _mm256_and_pd,
-        _mm256_or_pd,
-        _mm256_andnot_pd,
-        _mm256_xor_pd,
-        _mm256_movemask_pd
-    );
-
-    /// Every pack, two lanes at a time in SSE2 registers.
-    pub(super) fn packs_sse2(
+    unsafe fn packs<V: Lanes>(
         packs: &[Pack],
         slots: &[SubSlot],
         coords: &[Vec3],
@@ -408,34 +246,29 @@ mod lanes {
     ) -> bool {
         let mut ok = true;
         for pack in packs {
-            for half in [0, 2] {
-                // (A second half of repeats only is skipped.)
-                if pack.out[half].is_some() {
-                    // SAFETY: SSE2 is part of the x86_64 baseline.
-                    ok &= unsafe { pack_lanes::<__m128d>(pack, half, slots, coords, out) };
+            for first in (0..LANES).step_by(V::N) {
+                if pack.out[first].is_some() {
+                    ok &= unsafe { pack_lanes::<V>(pack, first, slots, coords, out) };
                 }
             }
         }
         ok
     }
 
-    /// Every pack, four lanes in AVX registers.
+    /// [`packs`] two lanes at a time in SSE2 registers.
+    pub(super) fn packs_sse2(p: &[Pack], s: &[SubSlot], c: &[Vec3], out: &mut [f64]) -> bool {
+        // SAFETY: SSE2 is part of the x86_64 baseline.
+        unsafe { packs::<__m128d>(p, s, c, out) }
+    }
+
+    /// [`packs`] four lanes at a time in AVX registers.
     ///
     /// # Safety
     /// The CPU must have AVX (a [`crate::isa::Wide`] proves it).
     #[target_feature(enable = "avx")]
-    pub(super) unsafe fn packs_avx(
-        packs: &[Pack],
-        slots: &[SubSlot],
-        coords: &[Vec3],
-        out: &mut [f64],
-    ) -> bool {
-        let mut ok = true;
-        for pack in packs {
-            // SAFETY: this function runs only where AVX is.
-            ok &= unsafe { pack_lanes::<__m256d>(pack, 0, slots, coords, out) };
-        }
-        ok
+    pub(super) unsafe fn packs_avx(p: &[Pack], s: &[SubSlot], c: &[Vec3], out: &mut [f64]) -> bool {
+        // SAFETY: this function runs only where AVX is.
+        unsafe { packs::<__m256d>(p, s, c, out) }
     }
 
     #[derive(Clone, Copy)]
@@ -452,7 +285,8 @@ mod lanes {
     /// Lanes `first..first + N` of `v`.
     #[inline(always)]
     unsafe fn lanes<V: Lanes>(v: &[f64; LANES], first: usize) -> V {
-        unsafe { V::load(&v[first..first + V::N]) }
+        // (The slice bounds the N values read.)
+        unsafe { V::load(v[first..first + V::N].as_ptr()) }
     }
 
     /// The positions of `atoms[first..first + N]`.
@@ -572,7 +406,7 @@ mod lanes {
                 j = select(lanes(&s.live, first), V::add(j, term), j);
             }
             let mut js = [0.0f64; LANES];
-            V::store(j, &mut js);
+            V::store(j, js.as_mut_ptr());
             let mut ok = true;
             for (l, &j) in js.iter().enumerate().take(V::N) {
                 if let Some(k) = pack.out[first + l] {

@@ -11,6 +11,8 @@
 //! flag goes to the exact checks, which decide and name the atoms.
 
 use crate::geometry::Vec3;
+#[cfg(target_arch = "x86_64")]
+use crate::isa::Lanes;
 use crate::isa::Wide;
 
 /// Margin (Å) by which the screen widens every alarm distance and narrows
@@ -120,7 +122,8 @@ impl PairScreen {
         match self.wide {
             // SAFETY: `wide` proves the CPU has AVX.
             Some(_) => !unsafe { self.any_row_flagged_avx() },
-            None => !self.any_row_flagged_sse(),
+            // SAFETY: SSE is part of the x86_64 baseline.
+            None => !unsafe { self.any_row_flagged::<std::arch::x86_64::__m128>() },
         }
         #[cfg(not(target_arch = "x86_64"))]
         {
@@ -141,98 +144,59 @@ impl PairScreen {
         })
     }
 
-    /// True when some pair of some row is flagged: [`Row::flagged_sse`] over
-    /// all rows in one loop, without building the rows' slices.
+    /// True when some pair of some row is flagged, `V::N` pairs per
+    /// compare: [`Row::flagged_scalar`] over all rows in one loop, without
+    /// building the rows' slices.
+    ///
+    /// # Safety
+    /// The CPU must have the instructions of `V`.
     #[cfg(target_arch = "x86_64")]
     #[inline(always)]
-    fn any_row_flagged_sse(&self) -> bool {
-        use std::arch::x86_64::{
-            _mm_add_ps, _mm_cmpgt_ps, _mm_cmplt_ps, _mm_loadu_ps, _mm_movemask_ps, _mm_mul_ps,
-            _mm_or_ps, _mm_set1_ps, _mm_setzero_ps, _mm_sub_ps,
-        };
+    unsafe fn any_row_flagged<V: Lanes<Elem = f32>>(&self) -> bool {
         let (xs, ys, zs) = (self.xs.as_ptr(), self.ys.as_ptr(), self.zs.as_ptr());
         let (lo2, hi2) = (self.lo2.as_ptr(), self.hi2.as_ptr());
-        // SAFETY: SSE is part of the x86_64 baseline; every load reads four
-        // f32 inside the arrays: `new` asserted that each row lies inside
-        // them with a length that is a multiple of LANES (so of four), and
-        // no other code changes the rows or the arrays' lengths
-        // (j + 4 <= len).
+        // SAFETY: every load reads N <= LANES f32 inside the arrays: `new`
+        // asserted that each row lies inside them with a length that is a
+        // multiple of LANES (so of N), and no other code changes the rows or
+        // the arrays' lengths (j + N <= len). The caller vouches for the
+        // instructions.
         unsafe {
-            let mut any = _mm_setzero_ps();
+            let mut any = V::splat(0.0);
             for (i, &(start, len)) in self.rows.iter().enumerate() {
                 let (xi, yi, zi) = (
-                    _mm_set1_ps(*xs.add(i)),
-                    _mm_set1_ps(*ys.add(i)),
-                    _mm_set1_ps(*zs.add(i)),
+                    V::splat(*xs.add(i)),
+                    V::splat(*ys.add(i)),
+                    V::splat(*zs.add(i)),
                 );
                 let (xj, yj, zj) = (xs.add(i + 1), ys.add(i + 1), zs.add(i + 1));
                 let (lo, hi) = (lo2.add(start), hi2.add(start));
                 let mut j = 0;
                 while j < len {
-                    let dx = _mm_sub_ps(_mm_loadu_ps(xj.add(j)), xi);
-                    let dy = _mm_sub_ps(_mm_loadu_ps(yj.add(j)), yi);
-                    let dz = _mm_sub_ps(_mm_loadu_ps(zj.add(j)), zi);
-                    let d2 = _mm_add_ps(
-                        _mm_add_ps(_mm_mul_ps(dx, dx), _mm_mul_ps(dy, dy)),
-                        _mm_mul_ps(dz, dz),
-                    );
-                    let l = _mm_cmplt_ps(d2, _mm_loadu_ps(lo.add(j)));
-                    let h = _mm_cmpgt_ps(d2, _mm_loadu_ps(hi.add(j)));
-                    any = _mm_or_ps(any, _mm_or_ps(l, h));
-                    j += 4;
+                    let dx = V::sub(V::load(xj.add(j)), xi);
+                    let dy = V::sub(V::load(yj.add(j)), yi);
+                    let dz = V::sub(V::load(zj.add(j)), zi);
+                    let d2 = V::add(V::add(V::mul(dx, dx), V::mul(dy, dy)), V::mul(dz, dz));
+                    let l = V::lt(d2, V::load(lo.add(j)));
+                    let h = V::gt(d2, V::load(hi.add(j)));
+                    any = V::or(any, V::or(l, h));
+                    j += V::N;
                 }
             }
-            _mm_movemask_ps(any) != 0
+            V::signs(any) != 0
         }
     }
 }
 
 #[cfg(target_arch = "x86_64")]
 impl PairScreen {
-    /// [`PairScreen::any_row_flagged_sse`] eight pairs per AVX compare.
+    /// [`PairScreen::any_row_flagged`] eight pairs per AVX compare.
     ///
     /// # Safety
     /// The CPU must have AVX (a [`Wide`] proves it).
     #[target_feature(enable = "avx")]
     unsafe fn any_row_flagged_avx(&self) -> bool {
-        use std::arch::x86_64::{
-            _mm256_add_ps, _mm256_cmp_ps, _mm256_loadu_ps, _mm256_movemask_ps, _mm256_mul_ps,
-            _mm256_or_ps, _mm256_set1_ps, _mm256_setzero_ps, _mm256_sub_ps, _CMP_GT_OQ, _CMP_LT_OQ,
-        };
-        let (xs, ys, zs) = (self.xs.as_ptr(), self.ys.as_ptr(), self.zs.as_ptr());
-        let (lo2, hi2) = (self.lo2.as_ptr(), self.hi2.as_ptr());
-        let mut any = _mm256_setzero_ps();
-        // SAFETY: every load reads eight f32 inside the arrays: `new`
-        // asserted that each row lies inside them with a length that is a
-        // multiple of LANES (eight), and no other code changes the rows or
-        // the arrays' lengths (j + 8 <= len).
-        unsafe {
-            for (i, &(start, len)) in self.rows.iter().enumerate() {
-                let (xi, yi, zi) = (
-                    _mm256_set1_ps(*xs.add(i)),
-                    _mm256_set1_ps(*ys.add(i)),
-                    _mm256_set1_ps(*zs.add(i)),
-                );
-                let (xj, yj, zj) = (xs.add(i + 1), ys.add(i + 1), zs.add(i + 1));
-                let (lo, hi) = (lo2.add(start), hi2.add(start));
-                let mut j = 0;
-                while j < len {
-                    let dx = _mm256_sub_ps(_mm256_loadu_ps(xj.add(j)), xi);
-                    let dy = _mm256_sub_ps(_mm256_loadu_ps(yj.add(j)), yi);
-                    let dz = _mm256_sub_ps(_mm256_loadu_ps(zj.add(j)), zi);
-                    let d2 = _mm256_add_ps(
-                        _mm256_add_ps(_mm256_mul_ps(dx, dx), _mm256_mul_ps(dy, dy)),
-                        _mm256_mul_ps(dz, dz),
-                    );
-                    // Ordered compares: false for NaN, as the SSE ones.
-                    let l = _mm256_cmp_ps::<_CMP_LT_OQ>(d2, _mm256_loadu_ps(lo.add(j)));
-                    let h = _mm256_cmp_ps::<_CMP_GT_OQ>(d2, _mm256_loadu_ps(hi.add(j)));
-                    any = _mm256_or_ps(any, _mm256_or_ps(l, h));
-                    j += LANES;
-                }
-            }
-        }
-        _mm256_movemask_ps(any) != 0
+        // SAFETY: this function runs only where AVX is.
+        unsafe { self.any_row_flagged::<std::arch::x86_64::__m256>() }
     }
 }
 
