@@ -11,6 +11,7 @@
 /// reached with the proof that [`Wide::detect`] returns.
 pub(crate) trait Isa: Copy {
     /// True for [`Wide`].
+    #[cfg_attr(not(target_arch = "x86_64"), allow(dead_code))]
     const WIDE: bool;
 }
 
@@ -25,6 +26,7 @@ impl Isa for Baseline {
 /// Proof that this CPU has AVX, AVX2, SSSE3, POPCNT, LZCNT, BMI1 and BMI2 (the
 /// x86-64 machines of the last decade); made only by [`Wide::detect`].
 #[derive(Debug, Clone, Copy)]
+#[cfg_attr(not(target_arch = "x86_64"), allow(dead_code))]
 pub(crate) struct Wide(());
 
 impl Isa for Wide {

@@ -98,7 +98,8 @@ struct Mat<'a> {
     e0: &'a [f64],
     m: usize,
     shift: Option<&'a [f64]>,
-    /// Whether the AVX2 kernel may be used.
+    /// Whether the AVX2 kernel may be used (x86-64 only).
+    #[cfg_attr(not(target_arch = "x86_64"), allow(dead_code))]
     simd: bool,
 }
 

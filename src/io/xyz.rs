@@ -398,7 +398,8 @@ struct Layout {
     gaps: u64,
     /// Each number's columns, ready for its value.
     number: [FixedDecimal; 3],
-    /// The same columns for [`Layout::read_wide`].
+    /// The same columns for [`Layout::read_wide`] (x86-64 only).
+    #[cfg_attr(not(target_arch = "x86_64"), allow(dead_code))]
     wide: WideColumns,
 }
 

@@ -21,6 +21,8 @@ const LANES: usize = 4;
 
 /// A list of pairs made ready for repeated evaluation; see the module docs.
 #[derive(Debug, Clone)]
+// (Other targets evaluate the jobs pair by pair and never read the packs.)
+#[cfg_attr(not(target_arch = "x86_64"), allow(dead_code))]
 pub struct PairBatch {
     hla: Vec<HlaJob>,
     subs: Vec<PreparedSub>,
@@ -49,6 +51,7 @@ struct HlaJob {
 /// Four HLA pairs, one per lane. A pack of fewer pairs repeats its first
 /// pair in the empty lanes, which are computed and not stored.
 #[derive(Debug, Clone)]
+#[cfg_attr(not(target_arch = "x86_64"), allow(dead_code))]
 struct Pack {
     /// H1, X, Y, H2 of each lane.
     atoms: [[usize; LANES]; 4],
@@ -64,6 +67,7 @@ struct Pack {
 /// The i-th substituent of each lane of a pack. A lane without one holds a
 /// dummy term (on X, Δχ = 0) that is computed and not added.
 #[derive(Debug, Clone)]
+#[cfg_attr(not(target_arch = "x86_64"), allow(dead_code))]
 struct SubSlot {
     atom: [usize; LANES],
     /// Lane masks (all bits set where true): on X, and not a dummy.

@@ -45,6 +45,7 @@ pub(crate) struct PairScreen {
     ys: Vec<f32>,
     zs: Vec<f32>,
     /// Set when this CPU runs the AVX loop.
+    #[cfg_attr(not(target_arch = "x86_64"), allow(dead_code))]
     wide: Option<Wide>,
 }
 
