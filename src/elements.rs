@@ -93,11 +93,17 @@ impl Element {
         self.0
     }
 
-    /// The table row of this element.
+    /// The table row of this element. Element values are made from table
+    /// rows, so the row exists, unless the built-in table itself is broken
+    /// (see [`check_builtin_table`]): then a row without data stands in.
     pub fn data(self) -> &'static ElementData {
         let t = table();
-        // Element values are only made from table rows, so the index exists.
-        &t.rows[t.by_z[self.0 as usize].unwrap_or(0)]
+        t.by_z
+            .get(self.0 as usize)
+            .copied()
+            .flatten()
+            .and_then(|i| t.rows.get(i))
+            .unwrap_or(&MISSING)
     }
 
     /// Chemical symbol.
@@ -132,13 +138,37 @@ struct Table {
     by_z: Vec<Option<usize>>,
 }
 
+/// The row [`Element::data`] gives when the built-in table is broken.
+static MISSING: ElementData = ElementData {
+    symbol: String::new(),
+    atomic_number: 0,
+    covalent_radius: f64::NAN,
+    chi_huggins: None,
+    chi_source: String::new(),
+};
+
+/// The built-in table, parsed once.
+fn builtin() -> &'static Result<Table, String> {
+    static TABLE: OnceLock<Result<Table, String>> = OnceLock::new();
+    TABLE.get_or_init(|| parse_table_checked(ELEMENTS_CSV))
+}
+
+/// The built-in table, or an empty one if it does not parse.
 fn table() -> &'static Table {
-    static TABLE: OnceLock<Table> = OnceLock::new();
-    TABLE.get_or_init(|| {
-        // The embedded table is checked by a unit test; a malformed row here is a
-        // build defect, not user input.
-        parse_table_checked(ELEMENTS_CSV).expect("params/elements.csv is malformed")
-    })
+    static EMPTY: Table = Table {
+        rows: Vec::new(),
+        by_z: Vec::new(),
+    };
+    builtin().as_ref().unwrap_or(&EMPTY)
+}
+
+/// Checks that the element table built into the binary
+/// (`params/elements.csv`) parses; the message names the bad row. The table
+/// is checked by a unit test, so a failure is a broken build, not bad input:
+/// the command line calls this first and stops with the message, rather than
+/// run with no element data.
+pub fn check_builtin_table() -> Result<(), String> {
+    builtin().as_ref().map(|_| ()).map_err(Clone::clone)
 }
 
 /// Parses an element table in the format of `params/elements.csv`
@@ -206,6 +236,7 @@ mod tests {
     fn embedded_table_parses() {
         let t = parse_table_checked(ELEMENTS_CSV).unwrap();
         assert!(t.rows.len() > 50);
+        assert_eq!(check_builtin_table(), Ok(()));
     }
 
     // Huggins 1953 values as quoted by Haasnoot, de Leeuw & Altona 1980.

@@ -49,6 +49,13 @@ enum Command {
 
 fn main() -> ExitCode {
     let cli = Cli::parse();
+    if let Err(e) = vicinal::elements::check_builtin_table() {
+        let _ = writeln!(
+            std::io::stderr(),
+            "vicinal: error: the element table built into this binary is broken ({e}); rebuild from an intact params/elements.csv"
+        );
+        return ExitCode::FAILURE;
+    }
     let result = match &cli.command {
         Command::Atoms(a) => run_atoms(a),
         Command::Predict(a) => run_predict(a),
