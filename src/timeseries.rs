@@ -85,9 +85,8 @@ pub const DEFAULT_STORE_CAPACITY: usize = 4096;
 /// division per value, which matters in the per-frame loop of a trajectory.
 #[derive(Debug, Clone, Copy, Default, PartialEq)]
 pub struct RunningStats {
-    n: u64,
-    shift: f64,
-    s1: f64,
+    /// Count, shift and S₁.
+    sum: RunningMean,
     s2: f64,
     min: f64,
     max: f64,
@@ -106,48 +105,46 @@ impl RunningStats {
         if !x.is_finite() {
             return;
         }
-        if self.n == 0 {
-            self.shift = x;
+        if self.sum.n == 0 {
             self.min = x;
             self.max = x;
         } else {
             self.min = self.min.min(x);
             self.max = self.max.max(x);
         }
-        self.n += 1;
-        let d = x - self.shift;
-        self.s1 += d;
+        let d = self.sum.add(x);
         self.s2 += d * d;
     }
 
     /// Σ(xᵢ − x̄)² of the values so far (0 when empty).
     fn m2(&self) -> f64 {
-        if self.n == 0 {
+        let RunningMean { n, s1, .. } = self.sum;
+        if n == 0 {
             return 0.0;
         }
-        (self.s2 - self.s1 * self.s1 / self.n as f64).max(0.0)
+        (self.s2 - s1 * s1 / n as f64).max(0.0)
     }
 
     /// Merges another accumulator into this one (Chan, Golub & LeVeque's
     /// pairwise update, Am. Stat. 1983, 37, 242), keeping this one's shift.
     pub fn merge(&mut self, other: &RunningStats) {
-        if other.n == 0 {
+        if other.sum.n == 0 {
             return;
         }
-        if self.n == 0 {
+        if self.sum.n == 0 {
             *self = *other;
             return;
         }
-        let (na, nb) = (self.n as f64, other.n as f64);
-        let (ma, mb) = (self.s1 / na, other.s1 / nb);
+        let (na, nb) = (self.sum.n as f64, other.sum.n as f64);
+        let (ma, mb) = (self.sum.s1 / na, other.sum.s1 / nb);
         // Both means relative to this shift; d is their difference.
-        let mb_here = mb + (other.shift - self.shift);
+        let mb_here = mb + (other.sum.shift - self.sum.shift);
         let d = mb_here - ma;
         let n = na + nb;
         let mean = ma + d * nb / n;
         let m2 = self.m2() + other.m2() + d * d * na * nb / n;
-        self.n += other.n;
-        self.s1 = n * mean;
+        self.sum.n += other.sum.n;
+        self.sum.s1 = n * mean;
         self.s2 = m2 + n * mean * mean;
         self.min = self.min.min(other.min);
         self.max = self.max.max(other.max);
@@ -155,17 +152,18 @@ impl RunningStats {
 
     /// Number of values accumulated.
     pub fn count(&self) -> u64 {
-        self.n
+        self.sum.count()
     }
 
     /// Mean, or `None` when empty.
     pub fn mean(&self) -> Option<f64> {
-        (self.n > 0).then(|| self.shift + self.s1 / self.n as f64)
+        self.sum.mean()
     }
 
     /// Sample variance s² (divisor n − 1), or `None` with fewer than 2 values.
     pub fn variance(&self) -> Option<f64> {
-        (self.n > 1).then(|| self.m2() / (self.n - 1) as f64)
+        let n = self.sum.n;
+        (n > 1).then(|| self.m2() / (n - 1) as f64)
     }
 
     /// Sample standard deviation s, or `None` with fewer than 2 values.
@@ -176,24 +174,25 @@ impl RunningStats {
     /// Standard error of the mean assuming independent values, s/√n; `None`
     /// with fewer than 2 values. For a correlated series use [`BlockAverager`].
     pub fn naive_sem(&self) -> Option<f64> {
-        self.variance().map(|v| (v / self.n as f64).sqrt())
+        self.variance().map(|v| (v / self.sum.n as f64).sqrt())
     }
 
     /// Smallest value, or `None` when empty.
     pub fn min(&self) -> Option<f64> {
-        (self.n > 0).then_some(self.min)
+        (self.sum.n > 0).then_some(self.min)
     }
 
     /// Largest value, or `None` when empty.
     pub fn max(&self) -> Option<f64> {
-        (self.n > 0).then_some(self.max)
+        (self.sum.n > 0).then_some(self.max)
     }
 }
 
-/// Running mean of a series, by the shifted sum of [`RunningStats`] without
-/// its spread and range, for the many small averages of a trajectory (the
-/// mean coupling within each conformational state); the mean has the same
-/// bits as that of a [`RunningStats`] fed the same values.
+/// Running mean of a series by the shifted sum S₁ of [`RunningStats`] (which
+/// keeps one inside), without its spread and range, for the many small
+/// averages of a trajectory (the mean coupling within each conformational
+/// state); the mean has the same bits as that of a [`RunningStats`] fed the
+/// same values.
 #[derive(Debug, Clone, Copy, Default, PartialEq)]
 pub struct RunningMean {
     n: u64,
@@ -210,14 +209,22 @@ impl RunningMean {
     /// Adds one value; non-finite values are left out.
     #[inline]
     pub fn push(&mut self, x: f64) {
-        if !x.is_finite() {
-            return;
+        if x.is_finite() {
+            self.add(x);
         }
+    }
+
+    /// Adds the finite value `x`; returns it shifted (x − K), for the sums
+    /// [`RunningStats`] keeps beside these.
+    #[inline(always)]
+    fn add(&mut self, x: f64) -> f64 {
         if self.n == 0 {
             self.shift = x;
         }
         self.n += 1;
-        self.s1 += x - self.shift;
+        let d = x - self.shift;
+        self.s1 += d;
+        d
     }
 
     /// Number of values accumulated.
@@ -413,9 +420,11 @@ impl BlockAverager {
         // shifts them, so its sums are those RunningStats would hold.
         match (self.levels.first(), self.shift) {
             (Some(l), Some(shift)) if l.n > 0 => RunningStats {
-                n: l.n,
-                shift,
-                s1: l.s1,
+                sum: RunningMean {
+                    n: l.n,
+                    shift,
+                    s1: l.s1,
+                },
                 s2: l.s2,
                 min: self.min,
                 max: self.max,
