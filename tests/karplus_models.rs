@@ -492,35 +492,7 @@ fn mirror(x: &[Vec3]) -> Vec<Vec3> {
 #[test]
 fn mirror_image_gives_identical_couplings() {
     let g = pyranoside(true, 60.0);
-    let top = g.mol.topology();
-    let mut pairs = vec![];
-    for k in 1..5 {
-        pairs.push(pair(
-            &top,
-            g.h[k],
-            g.ring[k],
-            g.ring[k + 1],
-            g.h[k + 1],
-            FragmentKind::HCsp3Csp3H,
-        ));
-    }
-    for &h6 in &g.h6 {
-        pairs.push(pair(
-            &top,
-            g.h[5],
-            g.ring[5],
-            g.c6,
-            h6,
-            FragmentKind::HCsp3Csp3H,
-        ));
-    }
-    let set = prepare_all(
-        &pairs,
-        &top,
-        &ParamLibrary::builtin(),
-        &ModelChoice::default(),
-    )
-    .unwrap();
+    let set = g.prepared();
     assert_eq!(set.pairs.len(), 6);
     let m = mirror(&g.mol.xyz);
     for pp in &set.pairs {
