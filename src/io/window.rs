@@ -2,7 +2,12 @@
 //! for parsers that find a line's fields with bit operations instead of a
 //! byte loop. On x86_64 the masks come from SSE2 compares (16 bytes at a
 //! time; SSE2 is part of the x86_64 baseline, so no run-time check is
-//! needed); elsewhere from a plain byte loop that gives the same masks.
+//! needed), or from AVX2 compares (32 at a time) where [`crate::isa::Wide`]
+//! is detected; elsewhere from a plain byte loop that gives the same masks.
+
+use crate::isa::Isa;
+#[cfg(doc)]
+use crate::isa::Wide;
 
 /// The classes of the 64 bytes of a window, one bit per byte.
 #[derive(Debug, Clone, Copy, Default, PartialEq, Eq)]
@@ -32,18 +37,24 @@ pub(crate) fn classify(w: &[u8; 64]) -> Classes {
     }
 }
 
-/// The space and digit masks of [`classify`] only, for parsers that look at
-/// the few other bytes they need one by one.
+/// The space, digit and minus masks of [`classify`] only, for the layout
+/// check of the XYZ reader: by AVX2 for a [`Wide`] `isa`, else as
+/// [`classify`] computes them.
 #[inline(always)]
-pub(crate) fn spaces_and_digits(w: &[u8; 64]) -> (u64, u64) {
+pub(crate) fn space_digit_minus<I: Isa>(_isa: I, w: &[u8; 64]) -> (u64, u64, u64) {
     #[cfg(target_arch = "x86_64")]
     {
-        sse2::spaces_and_digits(w)
+        if I::WIDE {
+            // SAFETY: a value of an `Isa` type with WIDE is a `Wide`, made
+            // only by `Wide::detect` on a CPU with AVX2.
+            return unsafe { space_digit_minus_avx2(w) };
+        }
+        sse2::space_digit_minus(w)
     }
     #[cfg(not(target_arch = "x86_64"))]
     {
         let c = classify_bytes(w);
-        (c.space, c.digit)
+        (c.space, c.digit, c.minus)
     }
 }
 
@@ -129,12 +140,13 @@ mod sse2 {
     }
 
     #[inline(always)]
-    pub(super) fn spaces_and_digits(w: &[u8; 64]) -> (u64, u64) {
+    pub(super) fn space_digit_minus(w: &[u8; 64]) -> (u64, u64, u64) {
         let c = masks::<false>(w);
-        (c.space, c.digit)
+        (c.space, c.digit, c.minus)
     }
 
-    /// The space and digit masks, and with `ALL` the other classes too.
+    /// The space, digit and minus masks, and with `ALL` the other classes
+    /// too.
     #[inline(always)]
     fn masks<const ALL: bool>(w: &[u8; 64]) -> Classes {
         let mut c = Classes::default();
@@ -154,9 +166,9 @@ mod sse2 {
                 );
                 c.space |= is(b' ');
                 c.digit |= bits(digit);
+                c.minus |= is(b'-');
                 if ALL {
                     c.dot |= is(b'.');
-                    c.minus |= is(b'-');
                     c.newline |= is(b'\n');
                 }
             }
@@ -182,16 +194,12 @@ mod tests {
                 w[k] = b;
                 let c = classify_bytes(&w);
                 assert_eq!(classify(&w), c, "byte {b:#04x} at {k}");
-                assert_eq!(
-                    spaces_and_digits(&w),
-                    (c.space, c.digit),
-                    "byte {b:#04x} at {k}"
-                );
-                #[cfg(target_arch = "x86_64")]
-                if crate::isa::Wide::detect().is_some() {
-                    // SAFETY: the CPU has AVX2, as `Wide::detect` checked.
-                    let wide = unsafe { space_digit_minus_avx2(&w) };
-                    assert_eq!(wide, (c.space, c.digit, c.minus), "byte {b:#04x} at {k}");
+                let want = (c.space, c.digit, c.minus);
+                let base = space_digit_minus(crate::isa::Baseline, &w);
+                assert_eq!(base, want, "byte {b:#04x} at {k}");
+                if let Some(wide) = crate::isa::Wide::detect() {
+                    let got = space_digit_minus(wide, &w);
+                    assert_eq!(got, want, "byte {b:#04x} at {k}");
                 }
             }
         }

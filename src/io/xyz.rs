@@ -379,43 +379,26 @@ fn fast_run_wide(
 }
 
 /// The column layout of a fixed-format atom line, learned from one line and
-/// checked whole on the next with a few mask compares: writers of
-/// trajectories print every line with the same widths, so the element, the
-/// decimal points and the ends of the fractions stay in the same columns
-/// (only the integer digits and signs before each point vary).
+/// checked whole on the next by mask tests alone: writers of trajectories
+/// print every line with the same widths, so the element, the decimal points
+/// and the ends of the fractions stay in the same columns, and only the
+/// integer digits and signs before each point vary. The line is cut into the
+/// element, the bytes that must be spaces (leading blanks, one gap after each
+/// field, trailing blanks), each number's integer zone (from the second byte
+/// after the previous field up to the point), the points and the fraction
+/// digits.
 #[derive(Debug, Clone, Copy)]
 struct Layout {
     /// Position of the line's `\n`.
     len: u32,
-    /// First and last byte of the element field.
+    /// First and last byte of the element field, and its bits.
     elem: (u32, u32),
-    /// Positions of the three points, and the last fraction digit of each.
+    elem_bits: u64,
+    /// Positions of the three points.
     point: [u32; 3],
-    end: [u32; 3],
-    /// Bits of the fraction digits, and of the bytes that must be spaces
-    /// (after the element and after the first two numbers).
+    /// Bits of the fraction digits, and of the bytes that must be spaces.
     fraction: u64,
-    gaps: u64,
-    /// Each number's columns, ready for its value.
-    number: [FixedDecimal; 3],
-    /// The same columns for [`Layout::read_wide`] (x86-64 only).
-    #[cfg_attr(not(target_arch = "x86_64"), allow(dead_code))]
-    wide: WideColumns,
-}
-
-/// What [`Layout::read_wide`] checks a line against: the line's bytes, cut
-/// into the element, the integer zone of each number (the columns from the
-/// second byte after the previous field to the point, where blanks, a sign
-/// and the integer digits go), the points, the fraction digits and the
-/// bytes that must be spaces, as bit masks.
-#[derive(Debug, Clone, Copy)]
-#[cfg_attr(not(target_arch = "x86_64"), allow(dead_code))]
-struct WideColumns {
-    /// Leading blanks, the gaps after the element and the first two
-    /// numbers, and trailing blanks.
     spaces: u64,
-    /// The element's bytes.
-    elem: u64,
     /// The three integer zones, together, and each alone.
     zones: u64,
     zone: [u64; 3],
@@ -424,7 +407,11 @@ struct WideColumns {
     /// Zone columns too far from the point for [`WideDecimal`] (more than
     /// 15 digits in all): they must not hold a digit.
     over: u64,
-    number: [WideDecimal; 3],
+    /// Each number's columns, ready for its value.
+    number: [FixedDecimal; 3],
+    /// The same for the wide path (x86-64 only).
+    #[cfg_attr(not(target_arch = "x86_64"), allow(dead_code))]
+    wide: [WideDecimal; 3],
 }
 
 impl Layout {
@@ -432,112 +419,53 @@ impl Layout {
     /// byte classes `c` and the position `len` of its `\n`; `None` unless
     /// every number has a point and 1 to 8 fraction digits.
     fn learn(c: &Classes, len: u32) -> Option<Layout> {
-        let mut fields = Fields::new(((1u64 << len) - 1) & !c.space);
+        // Bits from..to (to excluded).
+        let span = |from: u32, to: u32| (u64::MAX << from) & !(u64::MAX << to);
+        let mut fields = Fields::new(span(0, len) & !c.space);
         let elem = fields.next()?;
         let (mut point, mut end) = ([0u32; 3], [0u32; 3]);
-        let (mut fraction, mut gaps) = (0u64, 1u64 << (elem.1 + 1));
+        let (mut fraction, mut spaces) = (0u64, span(0, elem.0) | 1u64 << (elem.1 + 1));
         for k in 0..3 {
             let (s, e) = fields.next()?;
-            let dot = c.dot & (u64::MAX >> (63 - e)) & (u64::MAX << s);
+            let dot = c.dot & span(s, e + 1);
             let p = dot.trailing_zeros();
             if dot == 0 || e == p || e - p > 8 {
                 return None;
             }
             (point[k], end[k]) = (p, e);
-            fraction |= (u64::MAX >> (63 - e)) & (u64::MAX << (p + 1));
-            if k < 2 {
-                gaps |= 1u64 << (e + 1);
-            }
+            fraction |= span(p + 1, e + 1);
+            // The gap after the first two numbers, the trailing blanks
+            // after the last.
+            spaces |= if k < 2 {
+                1u64 << (e + 1)
+            } else {
+                span(e + 1, len)
+            };
         }
-        let number = [
-            FixedDecimal::new(point[0], end[0])?,
-            FixedDecimal::new(point[1], end[1])?,
-            FixedDecimal::new(point[2], end[2])?,
-        ];
-        // Bits from..to (to excluded).
-        let span = |from: u32, to: u32| (u64::MAX << from) & !(u64::MAX << to);
         let bottoms = [elem.1 + 2, end[0] + 2, end[1] + 2];
         let (mut zone, mut over) = ([0u64; 3], 0u64);
-        let mut wide_number = [None; 3];
         for k in 0..3 {
             zone[k] = span(bottoms[k], point[k]);
             let digits_max = WideDecimal::MAX_DIGITS - (end[k] - point[k]);
-            over |= span(
-                bottoms[k],
-                point[k].saturating_sub(digits_max).max(bottoms[k]),
-            );
-            wide_number[k] = WideDecimal::new(bottoms[k], point[k], end[k]);
+            let reach = point[k].saturating_sub(digits_max).max(bottoms[k]);
+            over |= span(bottoms[k], reach);
         }
-        let wide = WideColumns {
-            spaces: span(0, elem.0) | gaps | span(end[2] + 1, len),
-            elem: span(elem.0, elem.1 + 1),
+        let fixed = |k: usize| FixedDecimal::new(point[k], end[k]);
+        let wide = |k: usize| WideDecimal::new(bottoms[k], point[k], end[k]);
+        Some(Layout {
+            len,
+            elem,
+            elem_bits: span(elem.0, elem.1 + 1),
+            point,
+            fraction,
+            spaces,
             zones: zone[0] | zone[1] | zone[2],
             zone,
             zone_bottoms: bottoms.iter().fold(0, |m, &b| m | 1u64 << b),
             over,
-            number: [wide_number[0]?, wide_number[1]?, wide_number[2]?],
-        };
-        Some(Layout {
-            len,
-            elem,
-            point,
-            end,
-            fraction,
-            gaps,
-            number,
-            wide,
+            number: [fixed(0)?, fixed(1)?, fixed(2)?],
+            wide: [wide(0)?, wide(1)?, wide(2)?],
         })
-    }
-
-    /// [`Layout::read`] by AVX2 masks and [`WideDecimal`]s: the whole line
-    /// checked by mask tests alone (each zone must read, from its bottom
-    /// up: blanks, at most one `-`, digits), and the three numbers read in
-    /// SIMD registers. The same lines give the same elements and bits; the
-    /// tests compare the two.
-    ///
-    /// # Safety
-    /// The CPU must have the features a [`Wide`] proves.
-    /// (Not marked with the features itself, so that it inlines into
-    /// [`fast_run_wide`], which is.)
-    #[cfg(target_arch = "x86_64")]
-    #[inline(always)]
-    unsafe fn read_wide(&self, window: &[u8; 64]) -> Option<(super::Element, Vec3, usize)> {
-        let c = &self.wide;
-        let len = self.len;
-        if window[(len & 63) as usize] != b'\n' {
-            return None;
-        }
-        // SAFETY: the caller guarantees AVX2.
-        let (space, digit, minus) = unsafe { super::window::space_digit_minus_avx2(window) };
-        if digit & self.fraction != self.fraction
-            || space & c.spaces != c.spaces
-            || space & c.elem != 0
-            || digit & c.over != 0
-            || self
-                .point
-                .iter()
-                .any(|&p| window[(p & 63) as usize] != b'.')
-        {
-            return None;
-        }
-        // The zones' non-digits must sit below their digits (each non-digit
-        // above a zone's bottom has a non-digit under it) and be spaces but
-        // for the top one, which may be the sign.
-        let nondigit = c.zones & !digit;
-        let top = nondigit & !(nondigit >> 1);
-        if ((nondigit & !c.zone_bottoms) >> 1) & !nondigit != 0
-            || nondigit & !space & !(top & minus) != 0
-        {
-            return None;
-        }
-        let el = element_from_bytes(window.get(self.elem.0 as usize..=self.elem.1 as usize)?)?;
-        let mut v = [0.0f64; 3];
-        for (k, slot) in v.iter_mut().enumerate() {
-            // SAFETY: the caller guarantees SSSE3; the zone and fraction
-            // were checked above as `WideDecimal::value` requires.
-            *slot = unsafe { c.number[k].value(window, minus & c.zone[k] != 0) };
-        }
-        Some((el, Vec3::new(v[0], v[1], v[2]), len as usize + 1))
     }
 
     /// The atom line at the start of `window` (the next 72 bytes of input)
@@ -545,52 +473,57 @@ impl Layout {
     /// accept there, with the same element and values. `None` for any other
     /// line.
     ///
-    /// For a [`Wide`] `isa`, [`Layout::read_wide`] reads the line instead.
+    /// The masks come from AVX2 and the numbers from [`WideDecimal`]s for a
+    /// [`Wide`] `isa`; else from SSE2 (or portable code) and
+    /// [`FixedDecimal`]s. The checks are the same; the tests compare the two.
     #[inline(always)]
-    fn read<I: Isa>(&self, _isa: I, window: &[u8; 72]) -> Option<(super::Element, Vec3, usize)> {
-        #[cfg(target_arch = "x86_64")]
-        if I::WIDE {
-            // SAFETY: a value of an `Isa` type with WIDE is a `Wide`, made
-            // only by `Wide::detect` on a CPU with the features.
-            return unsafe { self.read_wide(window.first_chunk::<64>()?) };
-        }
-        // Only two classes as masks, of the first 64 bytes (the other 8 only
-        // complete the digit words); the few other bytes are looked at one
-        // by one: the `\n`, the points and the signs.
-        let (space, digit) = super::window::spaces_and_digits(window.first_chunk::<64>()?);
-        let byte = |i: u32| window[(i & 63) as usize];
+    fn read<I: Isa>(&self, isa: I, window: &[u8; 72]) -> Option<(super::Element, Vec3, usize)> {
+        let w = window.first_chunk::<64>()?;
         let len = self.len;
-        let line = (1u64 << len) - 1;
-        if byte(len) != b'\n'
-            || digit & self.fraction != self.fraction
-            || space & self.gaps != self.gaps
-            || self.point.iter().any(|&p| byte(p) != b'.')
+        if w[(len & 63) as usize] != b'\n' {
+            return None;
+        }
+        let (space, digit, minus) = super::window::space_digit_minus(isa, w);
+        if digit & self.fraction != self.fraction
+            || space & self.spaces != self.spaces
+            || space & self.elem_bits != 0
+            || digit & self.over != 0
+            || self.point.iter().any(|&p| w[(p & 63) as usize] != b'.')
         {
             return None;
         }
-        let (s0, e0) = self.elem;
-        // The bytes that must not be spaces: the element, and each number
-        // from its sign or first integer digit to its last fraction digit.
-        // Every byte of those spans is checked (the element by its lookup,
-        // digits by the mask, points and signs one by one) and every byte
-        // outside them must be a space, so the line is exactly four fields;
-        // a `\n` or a point elsewhere before `len` fails one of the checks.
-        let mut solid = (u64::MAX >> (63 - e0)) & (u64::MAX << s0);
-        let mut v = [0.0f64; 3];
-        for (k, slot) in v.iter_mut().enumerate() {
-            let p = self.point[k];
-            // The integer digits run down from the point to the highest
-            // non-digit below it (there is one: the space after the element).
-            let below = !digit & ((1u64 << p) - 1);
-            let q = 63 - below.leading_zeros();
-            let neg = byte(q) == b'-';
-            solid |= (u64::MAX >> (63 - self.end[k])) & (u64::MAX << (q + 1 - u32::from(neg)));
-            *slot = self.number[k].value(window, p - 1 - q, neg)?;
-        }
-        if line & !space != solid {
+        // The zones' non-digits must sit below their digits (each non-digit
+        // above a zone's bottom has a non-digit under it) and be spaces but
+        // for the top one, which may be the sign.
+        let nondigit = self.zones & !digit;
+        let top = nondigit & !(nondigit >> 1);
+        if ((nondigit & !self.zone_bottoms) >> 1) & !nondigit != 0
+            || nondigit & !space & !(top & minus) != 0
+        {
             return None;
         }
-        let el = element_from_bytes(window.get(s0 as usize..e0 as usize + 1)?)?;
+        let el = element_from_bytes(w.get(self.elem.0 as usize..=self.elem.1 as usize)?)?;
+        let mut v = [0.0f64; 3];
+        for (k, slot) in v.iter_mut().enumerate() {
+            let neg = minus & self.zone[k] != 0;
+            #[cfg(target_arch = "x86_64")]
+            if I::WIDE {
+                // SAFETY: a value of an `Isa` type with WIDE is a `Wide`,
+                // made only by `Wide::detect` on a CPU with SSSE3; the zone
+                // and fraction were checked as `WideDecimal::value` needs.
+                *slot = unsafe { self.wide[k].value(w, neg) };
+                continue;
+            }
+            // The integer digits run from the zone's lowest digit up to the
+            // point.
+            let ints = digit & self.zone[k];
+            let k_int = if ints == 0 {
+                0
+            } else {
+                self.point[k] - ints.trailing_zeros()
+            };
+            *slot = self.number[k].value(window, k_int, neg)?;
+        }
         Some((el, Vec3::new(v[0], v[1], v[2]), len as usize + 1))
     }
 }
