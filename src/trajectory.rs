@@ -717,8 +717,7 @@ fn frame_error(frame: &Frame, index: usize, e: Error) -> Error {
 
 struct Analysis<'t> {
     top: &'t Topology,
-    pairs: Vec<PreparedPair>,
-    /// The pairs made ready for evaluation frame after frame.
+    /// The pairs, made ready for evaluation frame after frame.
     batch: PairBatch,
     groups: Vec<Group>,
     j_pair: Vec<f64>,
@@ -878,14 +877,13 @@ impl<'t> Analysis<'t> {
 
         Ok(Analysis {
             top,
-            batch: PairBatch::new(&pairs),
             j_pair: vec![0.0; pairs.len()],
             j_group: vec![0.0; n],
             averagers: (0..n).map(|_| BlockAverager::new()).collect(),
             labels: vec![0; rings.len() + bonds.len()],
             scratch: Vec::with_capacity(n),
             checkpoints: Checkpoints::new(opts.checkpoints),
-            pairs,
+            batch: PairBatch::new(pairs),
             groups,
             rings,
             bonds,
@@ -899,7 +897,7 @@ impl<'t> Analysis<'t> {
     fn add(&mut self, frame: &Frame, index: usize, used: u64) -> Result<()> {
         let c = &frame.coords;
         self.batch
-            .evaluate(&self.pairs, c, &mut self.j_pair)
+            .evaluate(c, &mut self.j_pair)
             .map_err(|e| frame_error(frame, index, e))?;
         for ((g, jg), avg) in self
             .groups
@@ -989,7 +987,7 @@ impl<'t> Analysis<'t> {
         let top = self.top;
         let mut couplings = Vec::with_capacity(self.groups.len());
         for (g, avg) in self.groups.iter().zip(&self.averagers) {
-            let first = &self.pairs[g.members[0]];
+            let first = &self.batch.pairs()[g.members[0]];
             let blocking = avg.analyze();
             let halves = avg.halves();
             let label = coupling_label(top, &g.side1, &g.side2);

@@ -24,6 +24,8 @@ const LANES: usize = 4;
 // (Other targets evaluate the jobs pair by pair and never read the packs.)
 #[cfg_attr(not(target_arch = "x86_64"), allow(dead_code))]
 pub struct PairBatch {
+    /// The pairs, in the order of [`PairBatch::evaluate`]'s output.
+    pairs: Vec<PreparedPair>,
     hla: Vec<HlaJob>,
     subs: Vec<PreparedSub>,
     packs: Vec<Pack>,
@@ -31,7 +33,6 @@ pub struct PairBatch {
     other: Vec<usize>,
     /// Largest atom index any pair reads.
     max_index: usize,
-    len: usize,
     /// Set when this CPU runs the AVX instance of the pack loop.
     wide: Option<Wide>,
 }
@@ -79,16 +80,17 @@ struct SubSlot {
 }
 
 impl PairBatch {
-    /// A batch for `pairs`, evaluated in [`PairBatch::evaluate`] in this order.
-    pub fn new(pairs: &[PreparedPair]) -> PairBatch {
+    /// A batch of `pairs`, evaluated in [`PairBatch::evaluate`] in this
+    /// order.
+    pub fn new(pairs: Vec<PreparedPair>) -> PairBatch {
         let mut batch = PairBatch {
+            pairs: Vec::new(),
             hla: Vec::new(),
             subs: Vec::new(),
             packs: Vec::new(),
             slots: Vec::new(),
             other: Vec::new(),
             max_index: 0,
-            len: pairs.len(),
             wide: Wide::detect(),
         };
         for (k, pair) in pairs.iter().enumerate() {
@@ -112,7 +114,13 @@ impl PairBatch {
             let pack = Pack::new(jobs, &batch.subs, &mut batch.slots);
             batch.packs.push(pack);
         }
+        batch.pairs = pairs;
         batch
+    }
+
+    /// The pairs, in the order of [`PairBatch::evaluate`]'s output.
+    pub fn pairs(&self) -> &[PreparedPair] {
+        &self.pairs
     }
 
     /// The same batch, evaluated with the baseline instructions only (SSE2
@@ -123,12 +131,13 @@ impl PairBatch {
         self
     }
 
-    /// 3J in Hz of every pair of `pairs` (the list the batch was made from)
-    /// in the conformer `coords`, into `out[k]` for `pairs[k]`. The values
-    /// are those of [`PreparedPair::evaluate_j`], bit for bit, and so is the
+    /// 3J in Hz of every pair of the batch in the conformer `coords`, into
+    /// `out[k]` for `pairs()[k]` (`out` as long as the list). The values are
+    /// those of [`PreparedPair::evaluate_j`], bit for bit, and so is the
     /// error: that of the first pair, in list order, that cannot be evaluated.
-    pub fn evaluate(&self, pairs: &[PreparedPair], coords: &[Vec3], out: &mut [f64]) -> Result<()> {
-        if coords.len() <= self.max_index || pairs.len() != self.len || out.len() != self.len {
+    pub fn evaluate(&self, coords: &[Vec3], out: &mut [f64]) -> Result<()> {
+        let pairs = &self.pairs[..];
+        if coords.len() <= self.max_index || out.len() != pairs.len() {
             return evaluate_each(pairs, coords, out);
         }
         #[cfg(target_arch = "x86_64")]
